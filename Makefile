@@ -1,0 +1,31 @@
+# The two set-up commands of README.md: `make demo` and `make test`.
+# Each builds .venv from nothing and installs against constraints.txt.
+PYTHON ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+STAMP := $(VENV)/.installed
+
+.PHONY: demo test lint bench constraints clean
+
+$(STAMP): pyproject.toml constraints.txt
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+	$(BIN)/python -m pip install --quiet -c constraints.txt -e '.[dev]'
+	touch $(STAMP)
+
+demo: $(STAMP)
+	$(BIN)/testplan plan sample_campaign/flood-gauge-node.toml
+
+lint: $(STAMP)
+	$(BIN)/ruff check testplan tests sample_campaign
+	$(BIN)/mypy
+
+test: lint
+	$(BIN)/python -m pytest -q
+
+# Regenerate constraints.txt from a venv that just passed `make test`.
+constraints: $(STAMP)
+	$(BIN)/python -m pip freeze --exclude-editable | grep -v '^-e ' > constraints.txt
+
+clean:
+	rm -rf $(VENV) demo-out .pytest_cache .mypy_cache .ruff_cache

@@ -1,0 +1,5 @@
+"""Allow ``python -m testplan``."""
+
+from testplan.cli import main
+
+main()

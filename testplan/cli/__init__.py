@@ -1,0 +1,44 @@
+"""The testplan command line: one typer app, one module per command group.
+
+Nothing heavy is imported here at module level (see tests/test_startup.py): command
+bodies import pandas, SQLAlchemy and weasyprint when they need them.
+"""
+
+from __future__ import annotations
+
+import typer
+
+from testplan import __version__
+from testplan.cli.plan import PLAN_EPILOG, plan_command
+
+app = typer.Typer(
+    name="testplan",
+    help="Plan, record, judge and report qualification tests of sealed products "
+    "(IP code ingress, salt mist, cycle endurance).",
+    no_args_is_help=True,
+    pretty_exceptions_show_locals=False,
+    add_completion=False,
+)
+
+
+def _version(value: bool) -> None:
+    if value:
+        typer.echo(f"testplan {__version__}")
+        raise typer.Exit()
+
+
+@app.callback()
+def _root(
+    version: bool = typer.Option(
+        False, "--version", callback=_version, is_eager=True, help="Print the version and exit."
+    ),
+) -> None:
+    """Plan, record, judge and report qualification tests of sealed products."""
+
+
+app.command("plan", epilog=PLAN_EPILOG)(plan_command)
+
+
+def main() -> None:
+    """Entry point of the ``testplan`` console script."""
+    app()

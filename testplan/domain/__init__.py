@@ -1,0 +1,1 @@
+"""Pure domain code: campaign model, IP code, units, procedures, statistics. No I/O."""

@@ -1,0 +1,120 @@
+"""Reliability-demonstration statistics in closed form (no scipy on the planning path).
+
+Symbols: R reliability to demonstrate at the rated life t0 (cycles), C confidence,
+n specimens, beta Weibull shape, L = t / t0 the test-length ratio, r allowed failures.
+"""
+
+from __future__ import annotations
+
+import math
+
+from testplan.errors import PlanningError
+
+
+def _check(reliability: float, confidence: float) -> None:
+    if not 0.0 < reliability < 1.0:
+        raise PlanningError(f"reliability must lie strictly between 0 and 1, got {reliability}")
+    if not 0.0 < confidence < 1.0:
+        raise PlanningError(f"confidence must lie strictly between 0 and 1, got {confidence}")
+
+
+def success_run_sample_size(reliability: float, confidence: float) -> int:
+    """Specimens needed with zero failures when each is tested to the rated life.
+
+    n = ln(1 - C) / ln(R), rounded up. Returns a count of specimens.
+    """
+    _check(reliability, confidence)
+    exact = math.log(1.0 - confidence) / math.log(reliability)
+    return math.ceil(exact - 1e-9)
+
+
+def chi2_quantile_even(probability: float, dof: int) -> float:
+    """Quantile of the chi-squared distribution for an even number of degrees of freedom.
+
+    For dof = 2k the CDF is 1 - exp(-x/2) * sum_{i<k} (x/2)^i / i!, inverted here by
+    bisection to 1e-12 relative. Raises ValueError for odd or non-positive dof.
+    """
+    if dof <= 0 or dof % 2:
+        raise ValueError("dof must be a positive even number")
+    if not 0.0 < probability < 1.0:
+        raise ValueError("probability must lie in (0, 1)")
+    k = dof // 2
+
+    def cdf(x: float) -> float:
+        half = x / 2.0
+        term, total = 1.0, 1.0
+        for i in range(1, k):
+            term *= half / i
+            total += term
+        return 1.0 - math.exp(-half) * total
+
+    lo, hi = 0.0, max(1.0, 2.0 * dof)
+    while cdf(hi) < probability:
+        hi *= 2.0
+    for _ in range(200):
+        mid = (lo + hi) / 2.0
+        if cdf(mid) < probability:
+            lo = mid
+        else:
+            hi = mid
+        if hi - lo <= 1e-12 * hi:
+            break
+    return (lo + hi) / 2.0
+
+
+def length_ratio(
+    reliability: float, confidence: float, specimens: int, shape: float, failures: int = 0
+) -> float:
+    """Test-length ratio L = t / t0 each of ``specimens`` units must reach.
+
+    Weibull-transformed chi-squared form: n * L^beta >= chi2(C; 2r + 2) / (2 * -ln R).
+    With r = 0 this is exactly the zero-failure extension ln(1-C) / (n * ln R).
+    """
+    _check(reliability, confidence)
+    if specimens < 1:
+        raise PlanningError(f"need at least one specimen, got {specimens}")
+    if shape <= 0:
+        raise PlanningError(f"the Weibull shape must be greater than zero, got {shape}")
+    if failures < 0:
+        raise PlanningError("allowed failures cannot be negative")
+    if failures == 0:
+        need = math.log(1.0 - confidence) / math.log(reliability)
+    else:
+        need = chi2_quantile_even(confidence, 2 * failures + 2) / (2.0 * -math.log(reliability))
+    return float((need / specimens) ** (1.0 / shape))
+
+
+def cycles_to_demonstrate(
+    rated_cycles: int,
+    reliability: float,
+    confidence: float,
+    specimens: int,
+    shape: float,
+    failures: int = 0,
+) -> int:
+    """Whole cycles per specimen to demonstrate R at C at ``rated_cycles``, rounded up."""
+    ratio = length_ratio(reliability, confidence, specimens, shape, failures)
+    return math.ceil(rated_cycles * ratio - 1e-6)
+
+
+def demonstrated_reliability(
+    cycles_reached: list[float],
+    rated_cycles: float,
+    confidence: float,
+    shape: float,
+    failures: int = 0,
+) -> float:
+    """Reliability at ``rated_cycles`` demonstrated at ``confidence`` by the cycles reached.
+
+    Sum of (t_i / t0)^beta over all specimens (failed ones at their failure count), and
+    R = exp(-chi2(C; 2r + 2) / (2 * sum)). With r = 0 this is the Weibayes bound.
+    """
+    if not cycles_reached:
+        raise PlanningError("no specimen cycles to evaluate")
+    if not 0.0 < confidence < 1.0:
+        raise PlanningError(f"confidence must lie strictly between 0 and 1, got {confidence}")
+    total = sum((t / rated_cycles) ** shape for t in cycles_reached)
+    if total <= 0:
+        return 0.0
+    chi = chi2_quantile_even(confidence, 2 * failures + 2)
+    return math.exp(-chi / (2.0 * total))

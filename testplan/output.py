@@ -1,0 +1,31 @@
+"""Write output files so a reader never sees a half-written one."""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+from testplan.errors import TestplanError
+
+
+def write_atomically(path: str | Path, data: bytes) -> None:
+    """Write ``data`` to a temporary file beside ``path``, then rename it into place.
+
+    Raises TestplanError naming the file when the folder is missing or not writable.
+    """
+    path = Path(path)
+    folder = path.parent if str(path.parent) else Path(".")
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=folder)
+    except OSError as err:
+        raise TestplanError(f"cannot write here: {err.strerror}", file=path) from err
+    try:
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(data)
+            handle.flush()
+            os.fsync(handle.fileno())
+        os.replace(tmp, path)
+    except OSError as err:
+        Path(tmp).unlink(missing_ok=True)
+        raise TestplanError(f"cannot write: {err.strerror}", file=path) from err

@@ -1,0 +1,1 @@
+"""Rendering: context (pure) -> HTML (jinja2) -> PDF (weasyprint, later)."""

@@ -1,0 +1,52 @@
+"""Find the templates and render HTML with jinja2 (autoescape on, strict undefined)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import jinja2
+
+from testplan.errors import TestplanError
+
+
+def template_dir(override: str | Path | None = None) -> Path:
+    """The folder holding the templates.
+
+    Order: ``override``; ``testplan/templates`` inside an installed wheel (the build copies
+    the top-level templates/ there); the source tree's top-level ``templates/``.
+    Raises TestplanError when none exists.
+    """
+    if override is not None:
+        path = Path(override)
+        if not path.is_dir():
+            raise TestplanError("template folder not found", file=path)
+        return path
+    here = Path(__file__).resolve().parent.parent
+    for candidate in (here / "templates", here.parent / "templates"):
+        if (candidate / "plan.html.j2").is_file():
+            return candidate
+    raise TestplanError(
+        "the templates are missing from this installation", fix="reinstall testplan"
+    )
+
+
+def environment(override: str | Path | None = None) -> jinja2.Environment:
+    """A jinja2 environment over the user's folder (if given) then the default templates."""
+    loaders: list[jinja2.BaseLoader] = []
+    if override is not None:
+        loaders.append(jinja2.FileSystemLoader(str(template_dir(override))))
+    loaders.append(jinja2.FileSystemLoader(str(template_dir())))
+    env = jinja2.Environment(
+        loader=jinja2.ChoiceLoader(loaders),
+        autoescape=jinja2.select_autoescape(["html", "j2"]),
+        undefined=jinja2.StrictUndefined,
+        trim_blocks=True,
+        lstrip_blocks=True,
+    )
+    return env
+
+
+def render(name: str, context: dict[str, Any], override: str | Path | None = None) -> str:
+    """Render template ``name`` with ``context``; returns the HTML text."""
+    return environment(override).get_template(name).render(**context)
