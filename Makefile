@@ -14,7 +14,9 @@ $(STAMP): pyproject.toml constraints.txt
 	touch $(STAMP)
 
 demo: $(STAMP)
-	$(BIN)/testplan plan sample_campaign/flood-gauge-node.toml
+	mkdir -p demo-out
+	$(BIN)/testplan plan sample_campaign/flood-gauge-node.toml --chart demo-out/calendar.svg \
+		--html demo-out/plan.html
 
 lint: $(STAMP)
 	$(BIN)/ruff check testplan tests sample_campaign

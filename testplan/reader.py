@@ -110,7 +110,7 @@ SECTIONS: dict[str, dict[str, bool]] = {
     },
     "leg": {"name": True, "specimens": True, "tests": True},
     "facility": {"name": True, "serves": True, "capacity": True},
-    "calendar": {"start": True, "workdays": False},
+    "calendar": {"start": True, "workdays": False, "workday_hours": False, "between_tests": False},
 }
 TOP_LEVEL = {"schema": True, "campaign": True, "device": True, "target": True}
 ARRAY_SECTIONS = {"endurance", "leg", "facility"}
@@ -621,7 +621,27 @@ def _read_legs(r: _Reader) -> tuple[tuple[Leg, ...], tuple[Facility, ...], Calen
                 f"expected a list of weekday names from {', '.join(WEEKDAYS)}",
                 key="calendar.workdays",
             )
-        calendar = Calendar(start=start, workdays=tuple(sorted({WEEKDAYS.index(d) for d in days})))
+        hours = sec.get("workday_hours", [8, 17])
+        if (
+            not isinstance(hours, list)
+            or len(hours) != 2
+            or not all(isinstance(h, int) and not isinstance(h, bool) for h in hours)
+            or not 0 <= hours[0] < hours[1] <= 24
+        ):
+            raise CampaignFileError(
+                "expected [first hour, last hour] of the working day, e.g. [8, 17]",
+                key="calendar.workday_hours",
+            )
+        between = r.quantity(sec, "between_tests", "calendar", "calendar.between_tests")
+        if between is not None and between < 0:
+            raise CampaignFileError("cannot be negative", key="calendar.between_tests")
+        calendar = Calendar(
+            start=start,
+            workdays=tuple(sorted({WEEKDAYS.index(d) for d in days})),
+            day_start_h=hours[0],
+            day_end_h=hours[1],
+            between_tests_h=4.0 if between is None else between,
+        )
     return tuple(legs), tuple(facilities), calendar
 
 

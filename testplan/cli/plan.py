@@ -9,6 +9,7 @@ import typer
 
 from testplan.cli.errors import reports_errors
 from testplan.domain.units import KEY_UNITS
+from testplan.errors import TestplanError
 
 PLAN_EPILOG = "Quantity keys (kind, plan unit): " + "; ".join(
     f"{k.key} ({k.kind}, {k.plan_unit})" for k in KEY_UNITS.values()
@@ -34,6 +35,10 @@ def plan_command(
         Path | None,
         typer.Option(help="Folder of templates overriding the built-in ones."),
     ] = None,
+    chart: Annotated[
+        Path | None,
+        typer.Option("--chart", help="Write the campaign calendar as a chart (.svg or .png)."),
+    ] = None,
 ) -> None:
     """Plan the procedures, parameters and criteria a campaign file needs.
 
@@ -44,6 +49,24 @@ def plan_command(
 
     loaded = read_campaign(campaign_file)
     plan = with_location(loaded, lambda: build_plan(loaded.campaign))
+    if chart is not None:
+        if plan.schedule is None:
+            raise TestplanError(
+                "no calendar to draw: the file has no [[leg]] sections",
+                file=campaign_file,
+                fix="add [[leg]] and [calendar]",
+            )
+        suffix = chart.suffix.lower().lstrip(".")
+        if suffix not in ("svg", "png"):
+            raise typer.BadParameter(
+                "the chart file must end in .svg or .png", param_hint="--chart"
+            )
+        from testplan.output import write_atomically
+        from testplan.report.chart import calendar_chart
+
+        title = f"{plan.campaign['reference']}: {plan.campaign['title']}"
+        write_atomically(chart, calendar_chart(plan.schedule, title, suffix))
+        typer.echo(f"wrote {chart}", err=True)
     if html is not None:
         from testplan.output import write_atomically
         from testplan.report.render import render

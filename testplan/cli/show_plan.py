@@ -82,7 +82,59 @@ def print_plan(plan: Plan, width: int = 100) -> None:
         for p in implied:
             table.add_row(p.id, p.code, p.title, p.implied_by or "")
         console.print(table)
+    if plan.specimens is not None and plan.schedule is not None:
+        _print_layout(console, plan)
     for note in plan.notes:
         console.print(Text(f"Note: {note}"))
     console.print()
     console.print(Panel(Text(plan.closing_note), title="Governing documents", title_align="left"))
+
+
+def _print_layout(console: Console, plan: Plan) -> None:
+    """Legs, specimens, the calendar of runs, facility use and the due date."""
+    assert plan.specimens is not None and plan.schedule is not None
+    legs = Table(title="Specimens and legs", title_justify="left", expand=True)
+    legs.add_column("serial", no_wrap=True)
+    legs.add_column("leg", no_wrap=True)
+    legs.add_column("runs, in order, and the steps between them")
+    for s in plan.specimens:
+        detail = " -> ".join(r.split("@")[0] for r in s["runs"]) or "-"
+        if s["steps"]:
+            detail += "\n" + "; ".join(s["steps"])
+        legs.add_row(s["serial"], s["leg"], detail)
+    console.print(legs)
+    sched = plan.schedule
+    cal = Table(title="Calendar", title_justify="left", expand=True)
+    cal.add_column("start", no_wrap=True)
+    cal.add_column("end", no_wrap=True)
+    cal.add_column("run", no_wrap=True)
+    cal.add_column("facility")
+    cal.add_column("specimens")
+    critical = set(sched["critical_path"])
+    for r in sorted(sched["runs"], key=lambda r: (r["start"], r["id"])):
+        mark = " *" if r["id"] in critical else ""
+        cal.add_row(
+            _when(r["start"], short=True),
+            _when(r["end"], short=True),
+            r["id"] + mark,
+            r["facility"] or "-",
+            ", ".join(x.rsplit("-", 1)[-1] for x in r["specimens"]),
+        )
+    console.print(cal)
+    console.print("* on the critical path")
+    use = Table(title="Facility use", title_justify="left")
+    use.add_column("facility")
+    use.add_column("capacity", justify="right")
+    use.add_column("busy h", justify="right")
+    use.add_column("idle h", justify="right")
+    for f in sched["facilities"]:
+        use.add_row(f["name"], str(f["capacity"]), f"{f['busy_h']:.1f}", f"{f['idle_h']:.1f}")
+    console.print(use)
+    console.print(Text(f"Last result due: {_when(sched['due'])}", style="bold"))
+
+
+def _when(iso: str, short: bool = False) -> str:
+    import datetime as dt
+
+    t = dt.datetime.fromisoformat(iso)
+    return t.strftime("%a %d %b %H:%M" if short else "%a %Y-%m-%d %H:%M")

@@ -158,6 +158,9 @@ class Calendar:
 
     start: dt.date
     workdays: tuple[int, ...] = (0, 1, 2, 3, 4)
+    day_start_h: int = 8
+    day_end_h: int = 17
+    between_tests_h: float = 4.0
 
 
 @dataclass(frozen=True)

@@ -9,6 +9,7 @@ from testplan.domain.endurance import endurance_procedure
 from testplan.domain.ingress import ingress_procedures
 from testplan.domain.plan import Plan, Procedure
 from testplan.domain.saltmist import salt_mist_procedure
+from testplan.domain.schedule import lay_out
 from testplan.errors import PlanningError
 
 ORDER_NOTE = (
@@ -74,4 +75,15 @@ def build_plan(c: Campaign) -> Plan:
             "Implied numerals are listed, not tested; set test_implied = true in "
             "[target] to plan them too."
         )
-    return Plan(campaign=campaign_summary(c), procedures=tuple(procs), notes=tuple(notes))
+    schedule = lay_out(c, procs)
+    if schedule is None:
+        return Plan(campaign=campaign_summary(c), procedures=tuple(procs), notes=tuple(notes))
+    if schedule.unallocated:
+        notes.append("Planned but in no leg: " + ", ".join(schedule.unallocated) + ".")
+    return Plan(
+        campaign=campaign_summary(c),
+        procedures=tuple(procs),
+        notes=tuple(notes),
+        specimens=tuple(s.to_json() for s in schedule.specimens),
+        schedule=schedule.to_json(),
+    )

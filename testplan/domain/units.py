@@ -94,6 +94,7 @@ KEY_UNITS: dict[str, KeyUnit] = {
         KeyUnit("endurance.spring_deflection", "length", "mm", "spring deflection in use"),
         KeyUnit("endurance.shear_modulus", "pressure", "GPa", "spring material shear modulus"),
         KeyUnit("endurance.torque_tolerance", "ratio", "%", "band around the cycle-0 torque"),
+        KeyUnit("calendar.between_tests", "time", "h", "inspect, dry and re-seal between tests"),
     ]
 }
 
