@@ -224,3 +224,13 @@ def test_partial_design_check_names_missing_key() -> None:
     with pytest.raises(PlanningError) as info:
         knob(friction_radius="3.7 mm")
     assert info.value.key == "endurance[1].spring_wire"
+
+
+def test_endurance_records_failure_cycles_and_seal_retest() -> None:
+    quantities = {c.quantity for c in knob().criteria}
+    assert {
+        "cycles_reached",
+        "failures",
+        "failure_cycle_recorded",
+        "seal_ingress_retest",
+    } <= quantities

@@ -106,3 +106,9 @@ def test_acceptance_and_cautions() -> None:
     assert crit["protection_rating"].min == 9.0
     text = " ".join(p.cautions)  # type: ignore[attr-defined]
     assert "Salt aerosol" in text and "Chamber heat" in text and "Electrical equipment" in text
+
+
+def test_collection_period_and_retest_criteria() -> None:
+    nss = salt(standard="ISO 9227", test_method="NSS", duration="480 h")
+    assert nss.parameter("collection_period").min == 24.0  # type: ignore[attr-defined]
+    assert any(c.quantity == "ingress_retest" for c in nss.criteria)  # type: ignore[attr-defined]

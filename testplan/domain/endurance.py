@@ -251,6 +251,20 @@ def endurance_procedure(item: Endurance) -> Procedure:
             max=float(item.allowed_failures),
             text=f"failure: {item.failure}; record the exact cycle count of any failure",
         ),
+        Criterion(
+            f"{pid}.failure_cycles",
+            "failure_cycle_recorded",
+            "pass",
+            "outcome",
+            text="for every failure, the cycle count at which it was found (the statistics use it)",
+        ),
+        Criterion(
+            f"{pid}.seal_retest",
+            "seal_ingress_retest",
+            "pass",
+            "outcome",
+            text="the seals of the cycled specimens pass the leg's ingress retest afterwards",
+        ),
     ]
     check = design_check(item, key)
     if check is not None:

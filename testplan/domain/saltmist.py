@@ -74,6 +74,7 @@ class Continuous:
     durations: tuple[float, ...]
     rinse: str
     clause: str
+    collection_h: float = 16.0
     provenance: str = "confirmed"
 
 
@@ -111,6 +112,7 @@ CONTINUOUS: dict[tuple[str, str], Continuous] = {
         (2, 6, 24, 48, 72, 96, 144, 168, 240, 480, 720, 1008),
         RINSE_ISO,
         "NSS",
+        collection_h=24.0,
     ),
     ("ISO 9227", "AASS"): Continuous(
         "ISO 9227",
@@ -123,6 +125,7 @@ CONTINUOUS: dict[tuple[str, str], Continuous] = {
         (2, 6, 24, 48, 72, 96, 144, 168, 240, 480, 720, 1008),
         RINSE_ISO,
         "AASS",
+        collection_h=24.0,
     ),
     ("ISO 9227", "CASS"): Continuous(
         "ISO 9227",
@@ -135,6 +138,7 @@ CONTINUOUS: dict[tuple[str, str], Continuous] = {
         (2, 6, 24, 48, 72, 96, 144, 168, 240, 480, 720, 1008),
         RINSE_ISO,
         "CASS",
+        collection_h=24.0,
     ),
     ("ASTM B117", "B117"): Continuous(
         "ASTM B117",
@@ -285,6 +289,11 @@ def salt_mist_procedure(sm: SaltMist, functional_check: str | None = None) -> Pr
                 text="measured on the prepared solution and on the collected fog",
             ),
             *base_params,
+            Parameter(
+                "collection_period",
+                text="each spray phase, averaged over the phase",
+                provenance="from memory",
+            ),
         ]
         for i, ph in enumerate(phases, start=1):
             cond = ph.temperature + (f", {ph.humidity}" if ph.humidity else "")
@@ -403,6 +412,13 @@ def salt_mist_procedure(sm: SaltMist, functional_check: str | None = None) -> Pr
                 text="continuous exposure",
             ),
             *base_params,
+            Parameter(
+                "collection_period",
+                min=spec.collection_h,
+                unit="h",
+                text="average the fog collection over periods at least this long",
+                provenance="from memory",
+            ),
             Parameter("duration", value=total, unit="h", provenance="declared"),
             Parameter(
                 "rinse_and_recovery",
@@ -444,6 +460,15 @@ def salt_mist_procedure(sm: SaltMist, functional_check: str | None = None) -> Pr
         title = f"Salt spray, {spec.variant}"
         standard, edition, clause = spec.standard, spec.edition, spec.clause
     criteria += _common_outcomes(pid, sm, functional_check)
+    criteria.append(
+        Criterion(
+            f"{pid}.ingress_retest",
+            "ingress_retest",
+            "pass",
+            "outcome",
+            text="the specimens pass the leg's ingress retest after recovery",
+        )
+    )
     notes.append(
         "The salt-mist standards give no pass criterion; the criteria here come from "
         "the campaign file."
