@@ -160,7 +160,8 @@ def test_spring_rate_hand_worked() -> None:
     # source: k = G d^4 / (8 D^3 n_a) (reference sheet 5); hand-worked: G = 69 GPa,
     # d = 0.8 mm, D = 5 mm, n_a = 7 -> 69000 * 0.4096 / (8 * 125 * 7) = 28262.4 / 7000 N/mm
     assert spring_rate_n_per_mm(69.0, 0.8, 5.0, 7) == pytest.approx(4.0374857, rel=1e-7)
-    # source: music wire G 81.7 GPa for 0.8-1.6 mm; stainless 302 69.0 GPa (spring-design table)
+    # source: spring-design table of G by wire size: stainless 302 69.0 GPa; music wire
+    # 81.7 GPa for 0.8-1.6 mm (from memory; the sheet confirms only the 82.7 and 80.0 ends)
     assert shear_modulus_gpa("music wire", 1.0) == 81.7
     assert shear_modulus_gpa("Stainless  302", 0.8) == 69.0
     with pytest.raises(PlanningError, match="unknown spring material"):
