@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 from testplan.domain.campaign import Endurance
 from testplan.domain.cautions import cautions
-from testplan.domain.plan import Criterion, Parameter, Procedure
+from testplan.domain.plan import Criterion, Parameter, Procedure, Provenance
 from testplan.domain.stats import cycles_to_demonstrate, success_run_sample_size
 from testplan.errors import PlanningError
 
@@ -70,7 +70,7 @@ class DesignCheck:
     """The spring and friction design check for one endurance item."""
 
     shear_modulus_gpa: float
-    modulus_source: str
+    modulus_source: Provenance
     spring_rate_n_mm: float
     normal_force_n: float
     torque_min_n_mm: float
@@ -105,7 +105,8 @@ def design_check(item: Endurance, key: str) -> DesignCheck | None:
     assert item.spring_active_coils is not None and item.spring_deflection_mm is not None
     assert item.friction_radius_mm is not None and item.friction_coefficient is not None
     if item.shear_modulus_gpa is not None:
-        g, source = item.shear_modulus_gpa, "declared"
+        g = item.shear_modulus_gpa
+        source: Provenance = "declared"
     else:
         assert item.spring_material is not None
         try:
@@ -113,7 +114,10 @@ def design_check(item: Endurance, key: str) -> DesignCheck | None:
         except PlanningError as err:
             err.key = f"{key}.spring_material"
             raise
-        source = "confirmed"
+        # Only the end bands of the graded materials were seen in a public source.
+        graded = {"music wire": (82.7, 80.0), "hard-drawn": (80.7, 78.6)}
+        name = re.sub(r"\s+", " ", item.spring_material.strip().lower())
+        source = "from memory" if name in graded and g not in graded[name] else "confirmed"
     try:
         k = spring_rate_n_per_mm(
             g, item.spring_wire_mm, item.spring_mean_diameter_mm, item.spring_active_coils
@@ -273,7 +277,7 @@ def endurance_procedure(item: Endurance) -> Procedure:
                 "shear_modulus",
                 value=check.shear_modulus_gpa,
                 unit="GPa",
-                provenance="declared" if check.modulus_source == "declared" else "confirmed",
+                provenance=check.modulus_source,
                 text=item.spring_material or None,
             ),
             Parameter(
