@@ -235,3 +235,20 @@ def test_endurance_records_failure_cycles_and_seal_retest() -> None:
         "failure_cycle_recorded",
         "seal_ingress_retest",
     } <= quantities
+
+
+def test_modulus_provenance_follows_the_table() -> None:
+    # source: spring-design table of G by wire size; the sheet confirms the 82.7 and 80.0 ends
+    # of music wire only, so a 1.0 mm wire's 81.7 GPa is from memory
+    spec = dict(
+        friction_radius="3.7 mm",
+        spring_mean_diameter="8 mm",
+        spring_active_coils=7,
+        spring_deflection="1.5 mm",
+        friction_coefficient=[1.05, 1.35],
+    )
+    mid = knob(spring_wire="1.0 mm", spring_material="music wire", **spec)
+    end = knob(spring_wire="0.5 mm", spring_material="music wire", **spec)
+    assert mid.parameter("shear_modulus").provenance == "from memory"
+    assert end.parameter("shear_modulus").provenance == "confirmed"
+    assert end.parameter("shear_modulus").value == 82.7

@@ -35,6 +35,16 @@ def laid_out(
     return build_plan(campaign_from_dict(data))
 
 
+def two_in_one_tank(**calendar: Any) -> Plan:
+    """Two specimens through a 72 h IPX8 immersion in a tank holding one at a time."""
+    return laid_out(
+        {"code": "IPX8", "immersion_depth": "2 m", "immersion_duration": "72 h"},
+        [{"name": "ip", "specimens": 2, "tests": ["water"]}],
+        [{"name": "tank", "serves": ["water"], "capacity": 1}],
+        **calendar,
+    )
+
+
 def when(iso: str) -> dt.datetime:
     return dt.datetime.fromisoformat(iso)
 
@@ -42,17 +52,8 @@ def when(iso: str) -> dt.datetime:
 def test_hand_worked_due_date_chamber_time_runs_on() -> None:
     # Two specimens, one tank, IPX8 for 72 h, start Mon 2027-01-11 08:00: the second start
     # (Thu 08:00) is a workday, and its 72 h run on through the weekend.
-    p = laid_out(
-        {"code": "IPX8", "immersion_depth": "2 m", "immersion_duration": "72 h"},
-        [{"name": "ip", "specimens": 2, "tests": ["water"]}],
-        [{"name": "tank", "serves": ["water"], "capacity": 1}],
-    )
-    p2 = laid_out(
-        {"code": "IPX8", "immersion_depth": "2 m", "immersion_duration": "72 h"},
-        [{"name": "ip", "specimens": 2, "tests": ["water"]}],
-        [{"name": "tank", "serves": ["water"], "capacity": 1}],
-    )
-    assert p.schedule == p2.schedule  # deterministic
+    p = two_in_one_tank()
+    assert p.schedule == two_in_one_tank().schedule  # deterministic
     sched = p.schedule
     assert sched is not None
     assert [(r["start"], r["end"]) for r in sched["runs"]] == [
@@ -63,12 +64,7 @@ def test_hand_worked_due_date_chamber_time_runs_on() -> None:
 
 
 def test_hand_worked_weekend_start_rule() -> None:
-    p = laid_out(
-        {"code": "IPX8", "immersion_depth": "2 m", "immersion_duration": "72 h"},
-        [{"name": "ip", "specimens": 2, "tests": ["water"]}],
-        [{"name": "tank", "serves": ["water"], "capacity": 1}],
-        start=dt.date(2027, 1, 13),
-    )
+    p = two_in_one_tank(start=dt.date(2027, 1, 13))
     sched = p.schedule
     assert sched is not None
     # Wed 13th 08:00 -> Sat 16th 08:00; the next start waits for Mon 18th 08:00 -> Thu 21st

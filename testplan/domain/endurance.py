@@ -16,22 +16,41 @@ from testplan.domain.stats import cycles_to_demonstrate, success_run_sample_size
 from testplan.errors import PlanningError
 
 # Shear modulus G of spring materials, GPa, by wire diameter where it varies.
-# Bands (upper wire diameter in mm, G): values of the usual spring-design handbook table.
-SHEAR_MODULUS_GPA: dict[str, tuple[tuple[float, float], ...]] = {
-    "music wire": ((0.8, 82.7), (1.6, 81.7), (3.2, 81.0), (math.inf, 80.0)),
-    "hard-drawn": ((0.8, 80.7), (1.6, 80.0), (3.2, 79.3), (math.inf, 78.6)),
-    "oil-tempered": ((math.inf, 77.2),),
-    "chrome-vanadium": ((math.inf, 77.2),),
-    "chrome-silicon": ((math.inf, 77.2),),
-    "stainless 302": ((math.inf, 69.0),),
-    "stainless 304": ((math.inf, 69.0),),
-    "stainless 316": ((math.inf, 69.0),),
-    "17-7 ph": ((math.inf, 72.4),),
+# Bands (upper wire diameter in mm, G, provenance): the usual spring-design handbook table;
+# for the graded wires only the end bands were seen in a public source.
+SHEAR_MODULUS_GPA: dict[str, tuple[tuple[float, float, Provenance], ...]] = {
+    "music wire": (
+        (0.8, 82.7, "confirmed"),
+        (1.6, 81.7, "from memory"),
+        (3.2, 81.0, "from memory"),
+        (math.inf, 80.0, "confirmed"),
+    ),
+    "hard-drawn": (
+        (0.8, 80.7, "confirmed"),
+        (1.6, 80.0, "from memory"),
+        (3.2, 79.3, "from memory"),
+        (math.inf, 78.6, "confirmed"),
+    ),
+    "oil-tempered": ((math.inf, 77.2, "confirmed"),),
+    "chrome-vanadium": ((math.inf, 77.2, "confirmed"),),
+    "chrome-silicon": ((math.inf, 77.2, "confirmed"),),
+    "stainless 302": ((math.inf, 69.0, "confirmed"),),
+    "stainless 304": ((math.inf, 69.0, "confirmed"),),
+    "stainless 316": ((math.inf, 69.0, "confirmed"),),
+    "17-7 ph": ((math.inf, 72.4, "confirmed"),),
 }
 
 
 def shear_modulus_gpa(material: str, wire_mm: float) -> float:
     """Shear modulus (GPa) of a spring material for a wire diameter (mm).
+
+    Raises PlanningError naming the known materials for an unknown one.
+    """
+    return shear_modulus_entry(material, wire_mm)[0]
+
+
+def shear_modulus_entry(material: str, wire_mm: float) -> tuple[float, Provenance]:
+    """Shear modulus (GPa) and the provenance of that table value.
 
     Raises PlanningError naming the known materials for an unknown one.
     """
@@ -42,10 +61,10 @@ def shear_modulus_gpa(material: str, wire_mm: float) -> float:
             f"unknown spring material {material!r}",
             fix="one of " + ", ".join(SHEAR_MODULUS_GPA) + ", or give shear_modulus instead",
         )
-    for upper, g in bands:
+    for upper, g, provenance in bands:
         if wire_mm <= upper:
-            return g
-    return bands[-1][1]  # pragma: no cover - last band is unbounded
+            return g, provenance
+    return bands[-1][1], bands[-1][2]  # pragma: no cover - last band is unbounded
 
 
 def spring_rate_n_per_mm(
@@ -110,14 +129,10 @@ def design_check(item: Endurance, key: str) -> DesignCheck | None:
     else:
         assert item.spring_material is not None
         try:
-            g = shear_modulus_gpa(item.spring_material, item.spring_wire_mm)
+            g, source = shear_modulus_entry(item.spring_material, item.spring_wire_mm)
         except PlanningError as err:
             err.key = f"{key}.spring_material"
             raise
-        # Only the end bands of the graded materials were seen in a public source.
-        graded = {"music wire": (82.7, 80.0), "hard-drawn": (80.7, 78.6)}
-        name = re.sub(r"\s+", " ", item.spring_material.strip().lower())
-        source = "from memory" if name in graded and g not in graded[name] else "confirmed"
     try:
         k = spring_rate_n_per_mm(
             g, item.spring_wire_mm, item.spring_mean_diameter_mm, item.spring_active_coils
