@@ -19,7 +19,7 @@ demo: $(STAMP)
 		--html demo-out/plan.html
 
 lint: $(STAMP)
-	$(BIN)/ruff check testplan tests sample_campaign
+	$(BIN)/ruff check testplan tests sample_campaign db
 	$(BIN)/mypy
 
 test: lint

@@ -102,3 +102,21 @@ class CriteriaFailedError(TestplanError):
     """The command ran, but results failed their criteria or verification failed."""
 
     exit_code = EXIT_FAILED
+
+
+class StoreError(TestplanError):
+    """The store cannot be opened or used: no store, wrong schema revision, busy, bad URL."""
+
+
+class RecordError(TestplanError):
+    """A bench record is refused: unknown run, wrong state, unauthorised person, out of service."""
+
+
+class LoggerFileError(TestplanError):
+    """A data-logger file cannot be imported: columns, values, time stamps, channel map."""
+
+
+class IntegrityError(TestplanError):
+    """The store's evidence does not check out: broken audit chain, changed raw file or samples."""
+
+    exit_code = EXIT_FAILED

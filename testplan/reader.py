@@ -110,7 +110,13 @@ SECTIONS: dict[str, dict[str, bool]] = {
     },
     "leg": {"name": True, "specimens": True, "tests": True},
     "facility": {"name": True, "serves": True, "capacity": True},
-    "calendar": {"start": True, "workdays": False, "workday_hours": False, "between_tests": False},
+    "calendar": {
+        "start": True,
+        "workdays": False,
+        "workday_hours": False,
+        "between_tests": False,
+        "timezone": False,
+    },
 }
 TOP_LEVEL = {"schema": True, "campaign": True, "device": True, "target": True}
 ARRAY_SECTIONS = {"endurance", "leg", "facility"}
@@ -635,14 +641,31 @@ def _read_legs(r: _Reader) -> tuple[tuple[Leg, ...], tuple[Facility, ...], Calen
         between = r.quantity(sec, "between_tests", "calendar", "calendar.between_tests")
         if between is not None and between < 0:
             raise CampaignFileError("cannot be negative", key="calendar.between_tests")
+        zone = sec.get("timezone", "UTC")
+        if not isinstance(zone, str) or not _is_zone(zone):
+            raise CampaignFileError(
+                f"unknown time zone {zone!r}; expected an IANA name such as 'Europe/London'",
+                key="calendar.timezone",
+            )
         calendar = Calendar(
             start=start,
+            timezone=zone,
             workdays=tuple(sorted({WEEKDAYS.index(d) for d in days})),
             day_start_h=hours[0],
             day_end_h=hours[1],
             between_tests_h=4.0 if between is None else between,
         )
     return tuple(legs), tuple(facilities), calendar
+
+
+def _is_zone(name: str) -> bool:
+    from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+
+    try:
+        ZoneInfo(name)
+    except (ZoneInfoNotFoundError, ValueError):
+        return False
+    return True
 
 
 def campaign_from_dict(data: dict[str, Any]) -> Campaign:
@@ -698,12 +721,18 @@ _TOML_POS = re.compile(r"\(at line (\d+), column (\d+)\)")
 def read_campaign(path: str | Path) -> LoadedCampaign:
     """Read and check a campaign file. Raises TestplanError naming the file, line and key."""
     path = Path(path)
+    data, text, lines = load_toml(path, "campaign file")
+    return _finish(data, path, lines, text)
+
+
+def load_toml(path: Path, what: str) -> tuple[dict[str, Any], str, dict[str, int]]:
+    """Read a UTF-8 TOML file: its data, its text and the line of every key."""
     try:
         raw = path.read_bytes()
     except FileNotFoundError as err:
         raise CampaignFileError("no such file", file=path) from err
     except IsADirectoryError as err:
-        raise CampaignFileError("is a directory, not a campaign file", file=path) from err
+        raise CampaignFileError(f"is a directory, not a {what}", file=path) from err
     except OSError as err:
         raise CampaignFileError(f"cannot read: {err.strerror}", file=path) from err
     try:
@@ -724,8 +753,7 @@ def read_campaign(path: str | Path) -> LoadedCampaign:
         raise CampaignFileError(
             f"TOML syntax error: {reason}", file=path, line=toml_line, column=col
         ) from err
-    lines = key_lines(text)
-    return _finish(data, path, lines, text)
+    return data, text, key_lines(text)
 
 
 def _finish(data: dict[str, Any], path: Path, lines: dict[str, int], text: str) -> LoadedCampaign:

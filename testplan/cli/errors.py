@@ -24,5 +24,9 @@ def reports_errors(fn: Callable[P, R]) -> Callable[P, R]:
         except TestplanError as err:
             typer.echo(f"error: {err.one_line()}", err=True)
             raise typer.Exit(err.exit_code) from None
+        finally:
+            from testplan.cli.common import close_stores
+
+            close_stores()
 
     return wrapper

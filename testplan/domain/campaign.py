@@ -161,6 +161,7 @@ class Calendar:
     day_start_h: int = 8
     day_end_h: int = 17
     between_tests_h: float = 4.0
+    timezone: str = "UTC"
 
 
 @dataclass(frozen=True)

@@ -75,6 +75,7 @@ class Schedule:
     critical_path: list[str]
     facility_use: list[dict[str, Any]]
     unallocated: list[str]
+    timezone: str = "UTC"
 
     @property
     def due(self) -> dt.datetime:
@@ -84,6 +85,7 @@ class Schedule:
     def to_json(self) -> dict[str, Any]:
         return {
             "start": self.start.date().isoformat(),
+            "timezone": self.timezone,
             "due": self.due.isoformat(timespec="minutes"),
             "runs": [r.to_json() for r in self.runs],
             "critical_path": list(self.critical_path),
@@ -300,6 +302,7 @@ def lay_out(campaign: Campaign, procs: list[Procedure]) -> Schedule | None:
         critical_path=_critical_path(runs),
         facility_use=_facility_use(campaign.facilities, runs, start),
         unallocated=unallocated,
+        timezone=cal.timezone,
     )
 
 

@@ -51,6 +51,10 @@ KINDS: dict[str, Kind] = {
     "temperature": Kind("temperature", "[temperature]", "23 degC"),
     "temperature_difference": Kind("temperature_difference", "[temperature]", "5 K"),
     "mass_concentration": Kind("mass_concentration", "[mass] / [length] ** 3", "2 kg/m^3"),
+    "volume_flow": Kind("volume_flow", "[length] ** 3 / [time]", "100 L/min"),
+    "mass": Kind("mass", "[mass]", "1.2 kg"),
+    "voltage": Kind("voltage", "[length] ** 2 * [mass] / [current] / [time] ** 3", "500 V"),
+    "count": Kind("count", "dimensionless", "1000 cycle"),
 }
 
 
@@ -122,6 +126,8 @@ def _matches(q: Any, kind: Kind) -> bool:
     if kind.dimensionality == "angle":
         root = ureg.get_root_units(q.units)[1]
         return str(root) == "radian"
+    if kind.dimensionality == "dimensionless":
+        return bool(q.dimensionless)
     if kind.dimensionality == "ratio":
         return bool(q.dimensionless) and str(ureg.get_root_units(q.units)[1]) == "dimensionless"
     return bool(q.dimensionality == ureg.get_dimensionality(kind.dimensionality))
@@ -192,6 +198,47 @@ def parse_key(text: object, key: str) -> float:
     """Parse the quantity for a campaign key listed in ``KEY_UNITS``; value in its plan unit."""
     spec = KEY_UNITS[key]
     return parse_quantity(text, spec.kind, spec.plan_unit, key=key)
+
+
+def linear_map(unit_text: str, kind: str, plan_unit: str, *, key: str = "") -> tuple[float, float]:
+    """``(scale, offset)`` so that ``value_in_plan_unit = scale * value + offset``.
+
+    ``unit_text`` is a unit alone (``"cm"``, ``"degF"``, ``"psi"``); it must be of
+    ``kind``. Offset units (temperatures) give a non-zero offset. A dimensionless
+    kind with plan unit ``""`` (pH, ratings) accepts ``""`` or ``"1"`` only.
+    """
+    import pint
+
+    expected = KINDS[kind]
+    text = unit_text.strip()
+    if plan_unit == "":
+        if text in ("", "1"):
+            return 1.0, 0.0
+        raise QuantityError(f"{text!r}: this quantity has no unit; leave the unit out", key=key)
+    if not text:
+        raise QuantityError(
+            f"no unit given; expected a {expected.name} unit such as "
+            f"{expected.example.split(' ', 1)[1]!r}",
+            key=key,
+        )
+    ureg = registry()
+    try:
+        units = ureg.parse_units(text.replace("%", "percent"))
+    except Exception as err:  # pint's tokenizer raises assorted errors on odd text
+        raise QuantityError(f"unknown unit {text!r}", key=key) from err
+    if not _matches(ureg.Quantity(1.0, units), expected):
+        raise QuantityError(
+            f"{text!r} is not a {expected.name} unit",
+            key=key,
+            fix=f"give a {expected.name} unit such as {expected.example.split(' ', 1)[1]!r}",
+        )
+    target = plan_unit.replace("%", "percent")
+    try:
+        zero = float(ureg.Quantity(0.0, units).to(target).magnitude)
+        one = float(ureg.Quantity(1.0, units).to(target).magnitude)
+    except pint.errors.PintError as err:
+        raise QuantityError(f"cannot convert {text!r} to {plan_unit!r}", key=key) from err
+    return one - zero, zero
 
 
 def units_table() -> str:

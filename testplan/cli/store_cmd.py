@@ -1,0 +1,102 @@
+"""``testplan store``: upgrade the schema of an older store, check its integrity, describe it."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+import typer
+
+from testplan.cli.common import DbOption, QuietOption, say, track
+from testplan.cli.errors import reports_errors
+from testplan.errors import IntegrityError
+
+app = typer.Typer(
+    help="Look after the store: schema upgrades and integrity checks.",
+    no_args_is_help=True,
+)
+
+
+@app.command("upgrade")
+@reports_errors
+def upgrade_command(db: DbOption = None, quiet: QuietOption = False) -> None:
+    """Upgrade an older store to this version's schema, keeping every record.
+
+    Back the store up first. A store already up to date is left as it is.
+
+    Example: testplan store upgrade --db lab.db
+    """
+    from testplan.store.engine import current_revision, head_revision, migrate, open_store
+
+    store = open_store(db, upgrade=True)
+    track(store)
+    say(f"store: {store.name}", quiet=quiet)
+    before = current_revision(store.engine)
+    head = head_revision()
+    if before == head:
+        typer.echo(f"already at schema {head}; nothing to do")
+        return
+    migrate(store.engine)
+    typer.echo(f"upgraded the store from schema {before} to {head}")
+
+
+@app.command("check")
+@reports_errors
+def check_command(db: DbOption = None) -> None:
+    """Verify the audit chain, every raw file's SHA-256 and every import's samples.
+
+    Exit 3 and one line per problem when something was changed behind the tool's back.
+
+    Example: testplan store check --db lab.db
+    """
+    from testplan.cli.common import open_for_reading
+    from testplan.store.audit import check_attachments, check_chain, check_raw_files
+
+    store = open_for_reading(db)
+    with store.reading() as session:
+        entries, chain = check_chain(session)
+        files, raw = check_raw_files(session)
+        photos, attached = check_attachments(session)
+    problems = chain + raw + attached
+    for p in problems:
+        typer.echo(f"problem: {p.line()}", err=True)
+    if problems:
+        raise IntegrityError(
+            f"{len(problems)} problem(s) in {store.name}: the evidence does not check out"
+        )
+    typer.echo(
+        f"ok: {entries} audit entries chained, {files} raw files and their samples, "
+        f"{photos} attachments match their hashes"
+    )
+
+
+@app.command("info")
+@reports_errors
+def info_command(
+    db: DbOption = None,
+    as_json: Annotated[bool, typer.Option("--json", help="Print as JSON.")] = False,
+) -> None:
+    """Say which store this is, its schema revision and what it holds.
+
+    Example: testplan store info --db lab.db
+    """
+    import json
+
+    from testplan.cli.common import open_for_reading
+    from testplan.store.engine import current_revision
+    from testplan.store.queries import count_rows
+
+    store = open_for_reading(db)
+    with store.reading() as session:
+        counts = count_rows(session)
+    info = {
+        "store": store.name,
+        "engine": store.dialect,
+        "schema": current_revision(store.engine),
+        "rows": counts,
+    }
+    if as_json:
+        typer.echo(json.dumps(info, indent=2))
+        return
+    typer.echo(f"store:  {info['store']} ({info['engine']}, schema {info['schema']})")
+    for name, n in counts.items():
+        typer.echo(f"  {name:<16} {n}")

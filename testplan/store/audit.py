@@ -1,0 +1,177 @@
+"""The audit trail: append-only, each entry hash-chained to the one before it.
+
+An entry's hash covers its sequence number, time, actor, action, entity, reason, old and
+new values and the previous entry's hash, serialised as canonical JSON. Changing,
+deleting or inserting an entry behind the tool's back breaks the chain at that point;
+``check_store`` finds it, and also re-hashes every raw file and every import's samples.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import hashlib
+import json
+import uuid
+from dataclasses import dataclass
+from typing import Any
+
+import sqlalchemy as sa
+from sqlmodel import Session, col, select
+
+from testplan.store.tables import AuditEntry, RawFile, utc_now
+
+GENESIS = "0" * 64
+
+
+def canonical(value: Any) -> str:
+    """Deterministic JSON: sorted keys, no spaces, UUIDs and datetimes as ISO text."""
+    return json.dumps(
+        value,
+        sort_keys=True,
+        separators=(",", ":"),
+        ensure_ascii=False,
+        default=_plain,
+        allow_nan=False,
+    )
+
+
+def _plain(value: Any) -> Any:
+    if isinstance(value, uuid.UUID):
+        return str(value)
+    if isinstance(value, dt.datetime):
+        return value.astimezone(dt.UTC).isoformat()
+    if isinstance(value, dt.date):
+        return value.isoformat()
+    if isinstance(value, bytes):
+        return hashlib.sha256(value).hexdigest()
+    raise TypeError(f"cannot put {type(value).__name__} in the audit trail")
+
+
+def entry_hash(entry: AuditEntry) -> str:
+    """The hash an entry must carry, from its content and the previous hash."""
+    body = {
+        "seq": entry.seq,
+        "at": entry.at.astimezone(dt.UTC).isoformat(),
+        "actor": entry.actor,
+        "action": entry.action,
+        "entity": entry.entity,
+        "entity_id": entry.entity_id,
+        "campaign_id": str(entry.campaign_id) if entry.campaign_id else None,
+        "why": entry.why,
+        "old": entry.old_json,
+        "new": entry.new_json,
+        "prev": entry.prev_hash,
+    }
+    return hashlib.sha256(canonical(body).encode()).hexdigest()
+
+
+def values_of(obj: Any, *fields: str) -> dict[str, Any]:
+    """A record's fields as a JSON-ready mapping (for old and new values)."""
+    return {f: getattr(obj, f) for f in fields}
+
+
+def append(
+    session: Session,
+    *,
+    actor: str,
+    action: str,
+    entity: str,
+    entity_id: uuid.UUID | str,
+    campaign_id: uuid.UUID | None = None,
+    why: str | None = None,
+    old: dict[str, Any] | None = None,
+    new: dict[str, Any] | None = None,
+) -> AuditEntry:
+    """Add one entry at the end of the chain, inside the caller's transaction.
+
+    On PostgreSQL a transaction-scoped advisory lock makes appends from several benches
+    queue; on SQLite ``BEGIN IMMEDIATE`` already serialises writers.
+    """
+    if session.get_bind().dialect.name == "postgresql":
+        session.execute(sa.text("SELECT pg_advisory_xact_lock(hashtext('testplan.audit'))"))
+    last = session.exec(select(AuditEntry).order_by(col(AuditEntry.seq).desc()).limit(1)).first()
+    entry = AuditEntry(
+        seq=(last.seq + 1) if last else 1,
+        at=utc_now(),
+        actor=actor,
+        action=action,
+        entity=entity,
+        entity_id=str(entity_id),
+        campaign_id=campaign_id,
+        why=why,
+        old_json=canonical(old) if old is not None else None,
+        new_json=canonical(new) if new is not None else None,
+        prev_hash=last.hash if last else GENESIS,
+        hash="",
+    )
+    entry.hash = entry_hash(entry)
+    session.add(entry)
+    session.flush()
+    return entry
+
+
+@dataclass(frozen=True)
+class Finding:
+    """One integrity problem found by ``check_store``."""
+
+    what: str
+    where: str
+
+    def line(self) -> str:
+        return f"{self.where}: {self.what}"
+
+
+def check_chain(session: Session) -> tuple[int, list[Finding]]:
+    """Walk the chain in order; return the number of entries and what does not check out."""
+    findings: list[Finding] = []
+    prev = GENESIS
+    expected_seq = 1
+    count = 0
+    for entry in session.exec(select(AuditEntry).order_by(col(AuditEntry.seq))):
+        count += 1
+        where = f"audit entry {entry.seq} ({entry.action} {entry.entity})"
+        if entry.seq != expected_seq:
+            findings.append(
+                Finding(f"entries {expected_seq} to {entry.seq - 1} are missing", where)
+            )
+        if entry.prev_hash != prev:
+            findings.append(Finding("does not follow the entry before it (chain broken)", where))
+        if entry_hash(entry) != entry.hash:
+            findings.append(Finding("content changed after it was recorded", where))
+        prev = entry.hash
+        expected_seq = entry.seq + 1
+    return count, findings
+
+
+def check_raw_files(session: Session) -> tuple[int, list[Finding]]:
+    """Re-hash every raw file and the samples of every import."""
+    from testplan.store.samples import samples_digest
+
+    findings: list[Finding] = []
+    count = 0
+    for raw in session.exec(select(RawFile).order_by(col(RawFile.imported_at))):
+        count += 1
+        where = f"raw file {raw.name} ({raw.id})"
+        if hashlib.sha256(raw.content).hexdigest() != raw.sha256:
+            findings.append(Finding("content no longer matches its SHA-256", where))
+        digest, n = samples_digest(session, raw.id)
+        if n != raw.samples:
+            findings.append(Finding(f"holds {n} samples, {raw.samples} were imported", where))
+        elif digest != raw.samples_sha256:
+            findings.append(Finding("samples changed since import", where))
+    return count, findings
+
+
+def check_attachments(session: Session) -> tuple[int, list[Finding]]:
+    """Re-hash every stored photo or attachment."""
+    from testplan.store.tables import Attachment
+
+    findings = []
+    count = 0
+    for item in session.exec(select(Attachment)):
+        count += 1
+        if hashlib.sha256(item.content).hexdigest() != item.sha256:
+            findings.append(
+                Finding("content no longer matches its SHA-256", f"attachment {item.name}")
+            )
+    return count, findings

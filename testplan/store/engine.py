@@ -1,0 +1,281 @@
+"""Opening the store: URL resolution, the engine factory, schema checks and write units.
+
+The store is named by ``--db``, else ``TESTPLAN_DB``, else ``./testplan.db`` (SQLite). A
+bare path is an SQLite file. Every write command names the store it writes to.
+
+SQLite runs in WAL mode with foreign keys on, a busy timeout, and ``BEGIN IMMEDIATE``
+for every transaction so writers queue instead of failing half-way. A write unit that
+still meets a busy store is retried with back-off, then reported in one line.
+"""
+
+from __future__ import annotations
+
+import os
+import time
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, TypeVar
+
+import sqlalchemy as sa
+from sqlalchemy import event
+from sqlalchemy.engine import URL, Engine, make_url
+from sqlalchemy.exc import ArgumentError, DBAPIError, OperationalError
+from sqlmodel import Session
+
+from testplan.errors import StoreError
+
+T = TypeVar("T")
+
+ENV_VAR = "TESTPLAN_DB"
+DEFAULT_FILE = "testplan.db"
+BUSY_TIMEOUT_MS = 10_000
+RETRY_DELAYS_S = (0.2, 0.5, 1.0, 2.0, 4.0)
+
+
+def resolve_url(option: str | None) -> str:
+    """The store URL from ``--db``, ``TESTPLAN_DB`` or the default file; a path means SQLite."""
+    text = option or os.environ.get(ENV_VAR) or DEFAULT_FILE
+    if "://" not in text:
+        return f"sqlite:///{Path(text).expanduser().resolve()}"
+    return text
+
+
+def _parse(url: str) -> URL:
+    try:
+        parsed = make_url(url)
+    except ArgumentError as err:
+        raise StoreError(f"cannot read the store URL {url!r}", key="--db") from err
+    if parsed.get_backend_name() not in ("sqlite", "postgresql"):
+        raise StoreError(
+            f"unsupported store {parsed.get_backend_name()!r}",
+            key="--db",
+            fix="use an SQLite file or a postgresql+psycopg:// URL",
+        )
+    if parsed.get_backend_name() == "postgresql" and parsed.get_driver_name() != "psycopg":
+        parsed = parsed.set(drivername="postgresql+psycopg")
+    return parsed
+
+
+def shown_url(url: str) -> str:
+    """The URL as printed: SQLite as its absolute file path, passwords hidden."""
+    parsed = make_url(url)
+    if parsed.get_backend_name() == "sqlite":
+        return str(Path(parsed.database or "").resolve())
+    return parsed.render_as_string(hide_password=True)
+
+
+def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
+    # We issue BEGIN ourselves (below), so the driver must not.
+    dbapi_connection.isolation_level = None
+    cur = dbapi_connection.cursor()
+    cur.execute("PRAGMA journal_mode=WAL")
+    cur.execute("PRAGMA foreign_keys=ON")
+    cur.execute(f"PRAGMA busy_timeout={BUSY_TIMEOUT_MS}")
+    cur.execute("PRAGMA synchronous=NORMAL")
+    cur.close()
+
+
+def _sqlite_begin(conn: sa.Connection) -> None:
+    conn.exec_driver_sql("BEGIN IMMEDIATE")
+
+
+def make_engine(url: str) -> Engine:
+    """One engine per command run, configured for the engine kind."""
+    parsed = _parse(url)
+    if parsed.get_backend_name() == "sqlite":
+        engine = sa.create_engine(parsed, connect_args={"timeout": BUSY_TIMEOUT_MS / 1000})
+        event.listen(engine, "connect", _sqlite_pragmas)
+        event.listen(engine, "begin", _sqlite_begin)
+        return engine
+    return sa.create_engine(parsed, pool_pre_ping=False)
+
+
+def _is_busy(err: BaseException) -> bool:
+    text = str(getattr(err, "orig", err)).lower()
+    if "database is locked" in text or "database is busy" in text:
+        return True
+    orig = getattr(err, "orig", None)
+    sqlstate = getattr(orig, "sqlstate", None)
+    return sqlstate in ("40001", "40P01", "55P03")
+
+
+@dataclass
+class Store:
+    """An open store: its URL and engine. Create with ``open_store``."""
+
+    url: str
+    engine: Engine
+
+    @property
+    def name(self) -> str:
+        return shown_url(self.url)
+
+    @property
+    def dialect(self) -> str:
+        return self.engine.dialect.name
+
+    @contextmanager
+    def reading(self) -> Iterator[Session]:
+        """A session for reading; nothing it does is committed."""
+        with Session(self.engine) as session:
+            yield session
+
+    def write(self, unit: Callable[[Session], T]) -> T:
+        """Run ``unit`` in one transaction: all of it is stored, or none.
+
+        A busy store (another bench holding the lock, a serialisation conflict) is
+        retried with back-off; after that the user gets one line, not a traceback.
+        """
+        waited = 0.0
+        for delay in (*RETRY_DELAYS_S, None):
+            try:
+                with Session(self.engine, expire_on_commit=False) as session:
+                    with session.begin():
+                        result = unit(session)
+                    return result
+            except (OperationalError, DBAPIError) as err:
+                if not _is_busy(err) or delay is None:
+                    if _is_busy(err):
+                        break
+                    raise _store_error(self, err) from err
+                time.sleep(delay)
+                waited += delay
+        raise StoreError(
+            f"the store {self.name} stayed busy for {waited + BUSY_TIMEOUT_MS / 1000:.0f} s "
+            "(another bench is writing); nothing was stored",
+            fix="try again in a moment",
+        )
+
+    def dispose(self) -> None:
+        self.engine.dispose()
+
+
+def _store_error(store: Store, err: BaseException) -> StoreError:
+    first = str(getattr(err, "orig", err)).strip().splitlines()[0]
+    return StoreError(f"the store {store.name} refused the change: {first}")
+
+
+# --- schema revisions -------------------------------------------------------------------
+
+
+def migrations_dir() -> Path:
+    """The Alembic folder: inside the installed package, else the checkout's db/."""
+    here = Path(__file__).resolve().parent.parent
+    packaged = here / "db"
+    if (packaged / "env.py").is_file():
+        return packaged
+    return here.parent / "db"
+
+
+def _alembic_config(connection: sa.Connection | None = None) -> Any:
+    from alembic.config import Config
+
+    cfg = Config()
+    cfg.set_main_option("script_location", str(migrations_dir()))
+    if connection is not None:
+        cfg.attributes["connection"] = connection
+    return cfg
+
+
+def head_revision() -> str:
+    """The newest schema revision this version of testplan knows."""
+    from alembic.script import ScriptDirectory
+
+    head = ScriptDirectory.from_config(_alembic_config()).get_current_head()
+    assert head is not None
+    return head
+
+
+def known_revisions() -> list[str]:
+    """All schema revisions, oldest first."""
+    from alembic.script import ScriptDirectory
+
+    script = ScriptDirectory.from_config(_alembic_config())
+    return [r.revision for r in reversed(list(script.walk_revisions()))]
+
+
+def current_revision(engine: Engine) -> str | None:
+    """The store's schema revision, None for an empty database."""
+    from alembic.runtime.migration import MigrationContext
+
+    with engine.connect() as conn:
+        return MigrationContext.configure(conn).get_current_revision()
+
+
+def migrate(engine: Engine, target: str = "head") -> None:
+    """Upgrade the schema to ``target`` in one transaction."""
+    from alembic import command
+
+    with engine.begin() as conn:
+        command.upgrade(_alembic_config(conn), target)
+
+
+def _has_tables(engine: Engine) -> bool:
+    return bool(sa.inspect(engine).get_table_names())
+
+
+def open_store(option: str | None, *, create: bool = False, upgrade: bool = False) -> Store:
+    """Open the store named by ``option`` / ``TESTPLAN_DB`` / the default file.
+
+    ``create``: make a new store if there is none (write commands that start a store).
+    ``upgrade``: the caller will upgrade, so an older schema is not an error.
+    Otherwise the store must exist and be at this version's schema revision.
+    """
+    url = resolve_url(option)
+    parsed = _parse(url)
+    shown = shown_url(url)
+    if parsed.get_backend_name() == "sqlite":
+        path = Path(parsed.database or "")
+        if not path.exists() and not create:
+            raise StoreError(
+                f"no store at {shown}",
+                key="--db",
+                fix="create one with `testplan init CAMPAIGN_FILE`, or name it with --db "
+                f"or {ENV_VAR}",
+            )
+        if not path.parent.is_dir():
+            raise StoreError(f"no such folder {path.parent} for the store", key="--db")
+    engine = make_engine(url)
+    store = Store(url, engine)
+    try:
+        current = current_revision(engine)
+        has_tables = current is not None or _has_tables(engine)
+    except (OperationalError, DBAPIError) as err:
+        engine.dispose()
+        first = str(getattr(err, "orig", err)).strip().splitlines()[0]
+        raise StoreError(f"cannot open the store {shown}: {first}", key="--db") from err
+    if current is None:
+        if has_tables:
+            engine.dispose()
+            raise StoreError(f"{shown} holds tables but is not a testplan store", key="--db")
+        if not create and not upgrade:
+            engine.dispose()
+            raise StoreError(
+                f"the store {shown} is empty",
+                key="--db",
+                fix="create it with `testplan init CAMPAIGN_FILE`",
+            )
+        migrate(engine)
+        return store
+    head = head_revision()
+    if current == head or upgrade:
+        if current not in known_revisions():
+            engine.dispose()
+            raise StoreError(
+                f"the store {shown} is at schema {current}, newer than this testplan knows "
+                f"({head})",
+                fix="upgrade testplan",
+            )
+        return store
+    engine.dispose()
+    if current in known_revisions():
+        raise StoreError(
+            f"the store {shown} is at schema {current}; this testplan needs {head}",
+            fix="back it up, then run `testplan store upgrade`",
+        )
+    raise StoreError(
+        f"the store {shown} is at schema {current}, newer than this testplan knows ({head})",
+        fix="upgrade testplan",
+    )

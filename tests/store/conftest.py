@@ -1,0 +1,185 @@
+"""Store fixtures: every store test runs on a real SQLite file and, when a server is
+given in TESTPLAN_TEST_PG_URL (.ci/run starts one), on a fresh PostgreSQL database."""
+
+from __future__ import annotations
+
+import os
+import uuid
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+import sqlalchemy as sa
+from sqlalchemy.engine import make_url
+from typer.testing import CliRunner
+
+from testplan.cli import app
+
+SAMPLE = Path(__file__).resolve().parents[2] / "sample_campaign" / "flood-gauge-node.toml"
+PG_URL = os.environ.get("TESTPLAN_TEST_PG_URL")
+NO_PG = "no PostgreSQL server given: set TESTPLAN_TEST_PG_URL (.ci/run starts a throwaway one)"
+
+
+def fresh_postgres_database() -> tuple[str, sa.Engine, str]:
+    assert PG_URL is not None
+    name = "tp_" + uuid.uuid4().hex[:16]
+    admin = sa.create_engine(PG_URL, isolation_level="AUTOCOMMIT")
+    with admin.connect() as conn:
+        conn.exec_driver_sql(f'CREATE DATABASE "{name}"')
+    url = make_url(PG_URL).set(database=name).render_as_string(hide_password=False)
+    return url, admin, name
+
+
+@pytest.fixture(params=["sqlite", pytest.param("postgresql", marks=pytest.mark.postgres)])
+def db_url(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[str]:
+    """A URL for an empty store: an SQLite file in tmp_path, or a new PostgreSQL database."""
+    if request.param == "sqlite":
+        yield f"sqlite:///{tmp_path / 'lab.db'}"
+        return
+    if not PG_URL:
+        pytest.skip(NO_PG)
+    url, admin, name = fresh_postgres_database()
+    try:
+        yield url
+    finally:
+        with admin.connect() as conn:
+            conn.exec_driver_sql(f'DROP DATABASE "{name}" WITH (FORCE)')
+        admin.dispose()
+
+
+class Bench:
+    """Runs testplan commands against one store, as a person at the bench would."""
+
+    def __init__(self, url: str, folder: Path) -> None:
+        self.url = url
+        self.folder = folder
+        self.runner = CliRunner()
+
+    def __call__(self, *args: str, ok: bool = True):  # type: ignore[no-untyped-def]
+        result = self.runner.invoke(app, [*args, "--db", self.url])
+        if ok:
+            assert result.exit_code == 0, (args, result.stdout, result.stderr, result.exception)
+        return result
+
+    def fail(self, *args: str, code: int = 1) -> str:
+        """Run a command that must be refused; return its one error line."""
+        result = self(*args, ok=False)
+        assert result.exit_code == code, (args, result.stdout, result.stderr, result.exception)
+        assert result.exception is None or isinstance(result.exception, SystemExit)
+        assert "Traceback" not in result.stderr
+        lines = [ln for ln in result.stderr.splitlines() if ln.startswith("error:")]
+        assert len(lines) == 1, result.stderr
+        return lines[0]
+
+    def sql(self, statement: str, **params: object) -> list[sa.Row]:  # type: ignore[type-arg]
+        """Read the store directly (what a reviewer with a database client would see)."""
+        engine = sa.create_engine(self.url)
+        try:
+            with engine.connect() as conn:
+                return list(conn.execute(sa.text(statement), params).all())
+        finally:
+            engine.dispose()
+
+    def raw(self, statement: str, **params: object) -> None:
+        """Change the store behind the tool's back (tamper tests)."""
+        engine = sa.create_engine(self.url)
+        try:
+            with engine.begin() as conn:
+                conn.execute(sa.text(statement), params)
+        finally:
+            engine.dispose()
+
+    def write(self, name: str, text: str) -> Path:
+        path = self.folder / name
+        path.write_text(text, encoding="utf-8")
+        return path
+
+
+START = (
+    "--operator",
+    "AK",
+    "--equipment",
+    "PT-03",
+    "--ambient-temperature",
+    "21 degC",
+    "--ambient-humidity",
+    "45 %",
+    "--ambient-pressure",
+    "1012 hPa",
+    "--state-ok",
+)
+
+
+@pytest.fixture
+def bench(db_url: str, tmp_path: Path) -> Bench:
+    """A store holding the sample campaign, three people and one calibrated instrument."""
+    b = Bench(db_url, tmp_path)
+    b("init", str(SAMPLE), "--quiet")
+    b("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator", "--quiet")
+    b(
+        "people",
+        "add",
+        "MO",
+        "--name",
+        "Mark Osei",
+        "--role",
+        "checker",
+        "--role",
+        "approver",
+        "--by",
+        "AK",
+        "--quiet",
+    )
+    b(
+        "people",
+        "add",
+        "JT",
+        "--name",
+        "Jo Tran",
+        "--role",
+        "operator",
+        "--role",
+        "checker",
+        "--by",
+        "MO",
+        "--quiet",
+    )
+    b(
+        "equipment",
+        "add",
+        "PT-03",
+        "--description",
+        "level and temperature transmitter",
+        "--serial",
+        "88213",
+        "--by",
+        "AK",
+        "--quiet",
+    )
+    for channel, u, rng in (
+        ("lowest_point_depth", "4 mm", ("0 mm", "3000 mm")),
+        ("water_temperature", "0.3 K", ("0 degC", "40 degC")),
+    ):
+        b(
+            "equipment",
+            "calibrate",
+            "PT-03",
+            "--channel",
+            channel,
+            "--certificate",
+            "VC-2026-118",
+            "--provider",
+            "Vale Calibration Ltd",
+            "--calibrated",
+            "2026-06-01",
+            "--due",
+            "2027-06-01",
+            "--uncertainty",
+            u,
+            "--range",
+            *rng,
+            "--by",
+            "AK",
+            "--quiet",
+        )
+    return b
