@@ -104,6 +104,7 @@ def upgrade() -> None:
         sa.Column("offset", sa.Float(), nullable=False),
         sa.Column("equipment_id", sa.Uuid(), nullable=True),
         sa.Column("calibration_id", sa.Uuid(), nullable=True),
+        sa.Column("specimen_id", sa.Uuid(), nullable=True),
         sa.ForeignKeyConstraint(
             ["calibration_id"],
             ["calibration.id"],
@@ -115,6 +116,10 @@ def upgrade() -> None:
         sa.ForeignKeyConstraint(
             ["raw_file_id"],
             ["raw_file.id"],
+        ),
+        sa.ForeignKeyConstraint(
+            ["specimen_id"],
+            ["specimen.id"],
         ),
         sa.PrimaryKeyConstraint("id"),
         sa.UniqueConstraint("raw_file_id", "number"),

@@ -33,6 +33,25 @@ app = typer.Typer(
 RunArg = Annotated[str, typer.Argument(help="Run id from the plan, e.g. water-8@aged-1.")]
 ByOption = Annotated[str, typer.Option("--by", help="Initials of the person recording.")]
 
+# Which option gave each observation field, so a refusal names the option.
+OPTION_OF = {
+    ("ingress", ""): "--ingress",
+    ("ingress", "where"): "--where",
+    ("ingress", "live_parts"): "--live-parts",
+    ("mass", "before"): "--mass-before",
+    ("mass", "after"): "--mass-after",
+    ("mass", ""): "--mass-before",
+    ("function", ""): "--function",
+    ("insulation", ""): "--insulation",
+    ("corrosion", ""): "--rating",
+    ("torque", "cycles"): "--cycles",
+    ("torque", ""): "--torque",
+    ("failure", "cycles"): "--cycles",
+    ("failure", ""): "--failure",
+    ("photo", ""): "--photo",
+    ("note", ""): "--note",
+}
+
 CHANNEL_LIST = "; ".join(f"{c.name} ({c.unit or 'no unit'})" for c in CHANNELS.values())
 
 
@@ -403,7 +422,8 @@ def observe_command(
                     check_entry(kind, fields, key=kind, specimen=specimen, checkpoint=checkpoint)
                 )
             except TestplanError as err:
-                err.key = "--" + (err.key or kind).replace("_", "-").split(".")[0]
+                field = (err.key or kind).partition(".")[2]
+                err.key = OPTION_OF.get((kind, field), OPTION_OF.get((kind, ""), err.key))
                 raise
     from testplan.store import records
 

@@ -34,9 +34,10 @@ Layout = Literal["auto", "long", "wide"]
 
 _MAP = re.compile(
     r"^\s*(?P<source>[^=\[\]]+?)\s*(?:\[(?P<unit>[^\]]*)\])?\s*=\s*(?P<quantity>[A-Za-z_]\w*)"
-    r"\s*(?:@\s*(?P<equipment>\S+))?\s*$"
+    r"\s*(?:@\s*(?P<equipment>[^\s#]+))?\s*(?:\#\s*(?P<specimen>\S+))?\s*$"
 )
 _ZONE = r"(?:[Zz]|[+-]\d\d(?::?\d\d)?)$"
+_STAMP = r"\d{4}-\d\d-\d\d(?:[T ]\d\d:\d\d(?::\d\d(?:[.,]\d+)?)?)?(?:[Zz]|[+-]\d\d(?::?\d\d)?)?$"
 
 
 @dataclass(frozen=True)
@@ -49,6 +50,7 @@ class ChannelMapping:
     equipment: str | None
     scale: float
     offset: float
+    specimen: str | None = None
 
     @property
     def plan_unit(self) -> str:
@@ -56,17 +58,23 @@ class ChannelMapping:
 
     def shown(self) -> str:
         by = f"@{self.equipment}" if self.equipment else ""
-        return f"{self.source}[{self.unit}]={self.quantity}{by}"
+        on = f"#{self.specimen}" if self.specimen else ""
+        return f"{self.source}[{self.unit}]={self.quantity}{by}{on}"
 
 
 def parse_map(text: str) -> ChannelMapping:
-    """Read ``SOURCE[UNIT]=QUANTITY@EQUIPMENT`` (unit and equipment optional)."""
+    """Read ``SOURCE[UNIT]=QUANTITY@EQUIPMENT#SPECIMEN`` (unit, equipment, specimen optional).
+
+    ``#SPECIMEN`` names the specimen a channel measures when one file logs several
+    (a torque sensor per rig station, a thermocouple per specimen in the tank).
+    """
     m = _MAP.match(text)
     if m is None:
         raise LoggerFileError(
             f"cannot read the channel map {text!r}",
             key="--map",
-            fix="write SOURCE[UNIT]=QUANTITY@EQUIPMENT, e.g. 'level[cm]=lowest_point_depth@PT-03'",
+            fix="write SOURCE[UNIT]=QUANTITY@EQUIPMENT#SPECIMEN, e.g. "
+            "'level[cm]=lowest_point_depth@PT-03'",
         )
     quantity = m["quantity"]
     if quantity not in CHANNELS:
@@ -84,7 +92,9 @@ def parse_map(text: str) -> ChannelMapping:
         scale, offset = linear_map(unit, spec.kind, spec.unit, key="--map")
     except QuantityError as err:
         raise LoggerFileError(f"{text!r}: {err.message}", key="--map", fix=err.fix) from err
-    return ChannelMapping(m["source"], unit, quantity, m["equipment"], scale, offset)
+    return ChannelMapping(
+        m["source"], unit, quantity, m["equipment"], scale, offset, specimen=m["specimen"]
+    )
 
 
 @dataclass
@@ -171,6 +181,7 @@ def read_logger_bytes(
     text = _decode(content, name, encoding)
     if not text.strip():
         raise LoggerFileError("the file is empty", file=name)
+    _first_row_fits(text, delimiter, skip_lines, name)
     try:
         df = pd.read_csv(
             io.StringIO(text),
@@ -181,6 +192,7 @@ def read_logger_bytes(
             keep_default_na=False,
             na_filter=False,
             skip_blank_lines=False,
+            index_col=False,
             engine="c",
         )
     except pd.errors.ParserError as err:
@@ -261,6 +273,22 @@ def _decode(content: bytes, name: str, encoding: str) -> str:
     return text.removeprefix("\ufeff")
 
 
+def _first_row_fits(text: str, delimiter: str, skip_lines: int, name: str) -> None:
+    """pandas would take a first data row longer than the header as an index; refuse it."""
+    import csv
+
+    head = text.splitlines()[skip_lines : skip_lines + 2]
+    if len(head) < 2 or not head[1].strip():
+        return
+    header, first = csv.reader(head, delimiter=delimiter)
+    if len(first) > len(header):
+        raise LoggerFileError(
+            f"line {skip_lines + 2}: expected {len(header)} fields, found {len(first)} "
+            "(check the delimiter and the decimal mark)",
+            file=name,
+        )
+
+
 def _parser_message(err: Exception, skip_lines: int) -> str:
     text = str(err).strip()
     m = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", text)
@@ -283,6 +311,15 @@ def _times(
     if empty.any():
         i = int(np.argmax(empty))
         raise LoggerFileError("empty time stamp", file=name, line=int(lines[i]), key=column)
+    looks = raw.str.match(_STAMP).to_numpy()
+    if not looks.all():
+        i = int(np.argmin(looks))
+        raise LoggerFileError(
+            f"cannot read {raw.iloc[i]!r} as an ISO 8601 time stamp",
+            file=name,
+            line=int(lines[i]),
+            key=column,
+        )
     zoned = raw.str.contains(_ZONE, regex=True).to_numpy()
     if zoned.any() and not zoned.all():
         i = int(np.argmax(zoned != zoned[0]))

@@ -15,6 +15,7 @@ import time
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
+from functools import lru_cache
 from pathlib import Path
 from typing import Any, TypeVar
 
@@ -96,9 +97,23 @@ def _is_busy(err: BaseException) -> bool:
     text = str(getattr(err, "orig", err)).lower()
     if "database is locked" in text or "database is busy" in text:
         return True
-    orig = getattr(err, "orig", None)
+    orig = getattr(err, "orig", err)
     sqlstate = getattr(orig, "sqlstate", None)
     return sqlstate in ("40001", "40P01", "55P03")
+
+
+def _driver_errors() -> tuple[type[Exception], ...]:
+    """Errors the database drivers raise themselves (COPY goes to psycopg directly)."""
+    import sqlite3
+
+    errors: list[type[Exception]] = [sqlite3.Error]
+    try:
+        import psycopg
+
+        errors.append(psycopg.Error)
+    except ImportError:  # pragma: no cover - psycopg is a dependency
+        pass
+    return tuple(errors)
 
 
 @dataclass
@@ -135,7 +150,9 @@ class Store:
                     with session.begin():
                         result = unit(session)
                     return result
-            except (OperationalError, DBAPIError) as err:
+            except Exception as err:
+                if not isinstance(err, (OperationalError, DBAPIError, *_driver_errors())):
+                    raise
                 if not _is_busy(err) or delay is None:
                     if _is_busy(err):
                         break
@@ -179,6 +196,7 @@ def _alembic_config(connection: sa.Connection | None = None) -> Any:
     return cfg
 
 
+@lru_cache(maxsize=1)
 def head_revision() -> str:
     """The newest schema revision this version of testplan knows."""
     from alembic.script import ScriptDirectory
@@ -188,12 +206,13 @@ def head_revision() -> str:
     return head
 
 
-def known_revisions() -> list[str]:
+@lru_cache(maxsize=1)
+def known_revisions() -> tuple[str, ...]:
     """All schema revisions, oldest first."""
     from alembic.script import ScriptDirectory
 
     script = ScriptDirectory.from_config(_alembic_config())
-    return [r.revision for r in reversed(list(script.walk_revisions()))]
+    return tuple(r.revision for r in reversed(list(script.walk_revisions())))
 
 
 def current_revision(engine: Engine) -> str | None:

@@ -864,9 +864,19 @@ def import_logger_data(
             .where(RunEquipment.run_id == run.id)
         ).all()
     }
+    serials = {s.serial: s.id for s in run_specimens(session, run)}
     channel_rows = []
     for number, m in enumerate(data.channels):
         equipment_id = calibration_id = None
+        specimen_id = None
+        if m.specimen is not None:
+            specimen_id = serials.get(m.specimen)
+            if specimen_id is None:
+                raise RecordError(
+                    f"specimen {m.specimen!r} is not on run {run.key} "
+                    f"(it has {', '.join(serials)})",
+                    key="--map",
+                )
         if m.equipment is not None:
             item = find_equipment(session, m.equipment, key="--map")
             cal = used.get((item.id, m.quantity))
@@ -878,7 +888,7 @@ def import_logger_data(
                     fix="name the equipment when starting the run, or map another instrument",
                 )
             equipment_id, calibration_id = item.id, cal.id
-        channel_rows.append((number, m, equipment_id, calibration_id))
+        channel_rows.append((number, m, equipment_id, calibration_id, specimen_id))
     first = dt.datetime.fromtimestamp(int(data.t_us.min()) / 1e6, dt.UTC)
     last = dt.datetime.fromtimestamp(int(data.t_us.max()) / 1e6, dt.UTC)
     raw = RawFile(
@@ -899,7 +909,7 @@ def import_logger_data(
     )
     session.add(raw)
     session.flush()
-    for number, m, equipment_id, calibration_id in channel_rows:
+    for number, m, equipment_id, calibration_id, specimen_id in channel_rows:
         session.add(
             LoggerChannel(
                 raw_file_id=raw.id,
@@ -912,6 +922,7 @@ def import_logger_data(
                 offset=m.offset,
                 equipment_id=equipment_id,
                 calibration_id=calibration_id,
+                specimen_id=specimen_id,
             )
         )
     session.flush()

@@ -292,6 +292,7 @@ class LoggerChannel(SQLModel, table=True):
     offset: float
     equipment_id: uuid.UUID | None = Field(default=None, foreign_key="equipment.id")
     calibration_id: uuid.UUID | None = Field(default=None, foreign_key="calibration.id")
+    specimen_id: uuid.UUID | None = Field(default=None, foreign_key="specimen.id")
 
 
 class Sample(SQLModel, table=True):

@@ -1,0 +1,109 @@
+"""The audit trail is append-only and hash-chained; `store check` finds what changed behind
+the tool's back (audit entries, raw files, samples, photos)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+import sqlalchemy as sa
+
+from .conftest import START, Bench
+
+DATA = Path(__file__).resolve().parents[1] / "data"
+RUN = "water-8@ip-verification-1"
+
+
+@pytest.fixture
+def recorded(bench: Bench) -> Bench:
+    bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
+    bench("record", "import", RUN, str(DATA / "loggers" / "tank-long.csv"), "--map",
+          "level[cm]=lowest_point_depth@PT-03", "--map", "water[degF]=water_temperature@PT-03",
+          "--by", "AK", "--quiet")  # fmt: skip
+    bench("record", "observe", RUN, "--photo", str(DATA / "photos" / "gland-after-immersion.png"),
+          "--ingress", "water:none", "--by", "AK", "--quiet")  # fmt: skip
+    return bench
+
+
+def unlock_audit(bench: Bench) -> None:
+    """What someone with database access could do: switch the append-only triggers off."""
+    if bench.url.startswith("postgresql"):
+        bench.raw("ALTER TABLE audit DISABLE TRIGGER audit_append_only")
+    else:
+        bench.raw("DROP TRIGGER audit_no_update")
+        bench.raw("DROP TRIGGER audit_no_delete")
+
+
+def problems(bench: Bench) -> list[str]:
+    result = bench("store", "check", ok=False)
+    assert result.exit_code == 3, result.stderr
+    assert "Traceback" not in result.stderr
+    return [ln.removeprefix("problem: ") for ln in result.stderr.splitlines()
+            if ln.startswith("problem: ")]  # fmt: skip
+
+
+def test_an_untouched_store_checks_out(recorded: Bench) -> None:
+    entries = recorded.sql("SELECT count(*) FROM audit")[0][0]
+    result = recorded("store", "check")
+    assert result.stdout.strip() == (
+        f"ok: {entries} audit entries chained, 1 raw files and their samples, 1 attachments "
+        "match their hashes"
+    )
+    actions = [a for (a,) in recorded.sql("SELECT action FROM audit ORDER BY seq")]
+    assert actions[:2] == ["campaign.create", "plan.create"]
+    assert actions[-4:] == ["run.start", "data.import", "observation.add", "observation.add"]
+
+
+@pytest.mark.parametrize("statement", ["UPDATE audit SET why = 'x'", "DELETE FROM audit"])
+def test_the_database_refuses_to_change_the_audit_trail(recorded: Bench, statement: str) -> None:
+    with pytest.raises(sa.exc.DBAPIError, match="append-only"):
+        recorded.raw(statement)
+
+
+def seq_of_anna(bench: Bench) -> int:
+    rows = bench.sql("SELECT seq FROM audit WHERE action = 'person.add' AND new_json LIKE '%Anna%'")
+    return int(rows[0][0])
+
+
+def test_a_changed_audit_entry_is_found(recorded: Bench) -> None:
+    seq = seq_of_anna(recorded)
+    unlock_audit(recorded)
+    recorded.raw("UPDATE audit SET new_json = replace(new_json, 'Anna', 'Anne') WHERE seq = :s",
+                 s=seq)  # fmt: skip
+    assert problems(recorded) == [
+        f"audit entry {seq} (person.add person): content changed after it was recorded"
+    ]
+
+
+def test_a_deleted_audit_entry_is_found(recorded: Bench) -> None:
+    seq = seq_of_anna(recorded)
+    unlock_audit(recorded)
+    recorded.raw("DELETE FROM audit WHERE seq = :s", s=seq)
+    assert problems(recorded) == [
+        f"audit entry {seq + 1} (person.add person): entries {seq} to {seq} are missing",
+        f"audit entry {seq + 1} (person.add person): does not follow the entry before it "
+        "(chain broken)",
+    ]
+
+
+def test_a_changed_sample_is_found(recorded: Bench) -> None:
+    recorded.raw("UPDATE sample SET value = 2060 WHERE seq = 2")
+    assert problems(recorded)[0].endswith(": samples changed since import")
+    assert problems(recorded)[0].startswith("raw file tank-long.csv (")
+
+
+def test_a_deleted_sample_is_found(recorded: Bench) -> None:
+    recorded.raw("DELETE FROM sample WHERE seq = 5")
+    assert problems(recorded)[0].endswith(": holds 5 samples, 6 were imported")
+
+
+def test_a_changed_raw_file_is_found(recorded: Bench) -> None:
+    recorded.raw("UPDATE raw_file SET content = :c", c=b"time,channel,value\n")
+    assert problems(recorded)[0].endswith(": content no longer matches its SHA-256")
+
+
+def test_a_changed_photo_is_found(recorded: Bench) -> None:
+    recorded.raw("UPDATE attachment SET content = :c", c=b"\x89PNG not the photo")
+    assert problems(recorded) == [
+        "attachment gland-after-immersion.png: content no longer matches its SHA-256"
+    ]

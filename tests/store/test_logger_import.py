@@ -1,0 +1,294 @@
+"""`testplan record import`: long and wide logger files into a run, all or nothing."""
+
+from __future__ import annotations
+
+import hashlib
+from pathlib import Path
+
+import pytest
+
+from .conftest import START, Bench
+
+DATA = Path(__file__).resolve().parents[1] / "data" / "loggers"
+RUN = "water-8@ip-verification-1"
+LEVEL = "level[cm]=lowest_point_depth@PT-03"
+WATER = "water[degF]=water_temperature@PT-03"
+
+
+@pytest.fixture
+def running(bench: Bench) -> Bench:
+    bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
+    return bench
+
+
+def samples(bench: Bench) -> list[tuple[str, str, float]]:
+    rows = bench.sql(
+        "SELECT c.quantity, s.t_us, s.value FROM sample s JOIN logger_channel c "
+        "ON c.raw_file_id = s.raw_file_id AND c.number = s.channel ORDER BY s.seq"
+    )
+    return [(q, t, round(v, 6)) for q, t, v in rows]
+
+
+# 2027-01-12T16:05:00Z in microseconds since the epoch.
+T0 = 1_799_769_900_000_000
+
+
+def test_long_file_with_offsets_is_converted_to_plan_units_and_utc(running: Bench) -> None:
+    result = running("record", "import", RUN, str(DATA / "tank-long.csv"), "--map", LEVEL,
+                     "--map", WATER, "--by", "AK")  # fmt: skip
+    assert result.stdout.strip().startswith(
+        f"{RUN}: imported 6 samples from tank-long.csv "
+        "(2027-01-12 16:05:00Z to 2027-01-12 16:05:02Z)"
+    )
+    # cm -> mm is x10; degF -> degC is (F - 32) x 5/9: 53.6 degF = 12.0 degC.
+    assert samples(running) == [
+        ("lowest_point_depth", T0, 2054.0),
+        ("water_temperature", T0, 12.0),
+        ("lowest_point_depth", T0 + 1_000_000, 2054.2),
+        ("water_temperature", T0 + 1_000_000, 12.0),
+        ("lowest_point_depth", T0 + 2_000_000, 2053.8),
+        ("water_temperature", T0 + 2_000_000, 12.111111),
+    ]
+
+
+def test_the_original_file_is_kept_byte_for_byte_with_its_reading(running: Bench) -> None:
+    path = DATA / "tank-long.csv"
+    running("record", "import", RUN, str(path), "--map", LEVEL, "--map", WATER, "--by", "AK",
+            "--quiet")  # fmt: skip
+    content, sha, tool, options = running.sql(
+        "SELECT content, sha256, tool_version, read_options_json FROM raw_file"
+    )[0]
+    assert bytes(content) == path.read_bytes()
+    assert sha == hashlib.sha256(path.read_bytes()).hexdigest()
+    assert tool == "0.1.0"
+    assert LEVEL in options and '"layout":"long"' in options
+    channels = running.sql(
+        "SELECT number, source, source_unit, quantity, unit FROM logger_channel ORDER BY number"
+    )
+    assert channels == [
+        (0, "level", "cm", "lowest_point_depth", "mm"),
+        (1, "water", "degF", "water_temperature", "degC"),
+    ]
+    assert running.sql("SELECT action, actor FROM audit ORDER BY seq DESC LIMIT 1") == [
+        ("data.import", "AK")
+    ]
+
+
+def test_wide_file_with_zone_bom_decimal_comma_and_gaps(running: Bench) -> None:
+    running("record", "import", RUN, str(DATA / "tank-wide-de.csv"), "--time-column", "Zeit",
+            "--delimiter", ";", "--decimal", ",", "--tz", "Europe/Berlin", "--skip-unmapped",
+            "--map", "Pegel[cm]=lowest_point_depth@PT-03",
+            "--map", "Wasser[degC]=water_temperature@PT-03", "--by", "AK", "--quiet")  # fmt: skip
+    # Berlin is UTC+1 in January; the empty cell at 17:05:10 is no reading.
+    assert samples(running) == [
+        ("lowest_point_depth", T0, 2054.0),
+        ("water_temperature", T0, 12.0),
+        ("lowest_point_depth", T0 + 10_000_000, 2054.1),
+        ("lowest_point_depth", T0 + 20_000_000, 2053.9),
+        ("water_temperature", T0 + 20_000_000, 12.1),
+    ]
+
+
+def test_a_bad_line_mid_file_is_named_and_nothing_is_kept(running: Bench) -> None:
+    audit_before = running.sql("SELECT count(*) FROM audit")
+    line = running.fail("record", "import", RUN, str(DATA / "tank-bad-line.csv"), "--map",
+                        "level[mm]=lowest_point_depth@PT-03", "--map",
+                        "water[degC]=water_temperature@PT-03", "--by", "AK")  # fmt: skip
+    assert (
+        line == f"error: {DATA / 'tank-bad-line.csv'}:5003: value: '20S.4' is not a finite number"
+    )
+    assert running.sql("SELECT count(*) FROM raw_file") == [(0,)]
+    assert running.sql("SELECT count(*) FROM sample") == [(0,)]
+    assert running.sql("SELECT count(*) FROM audit") == audit_before
+
+
+def test_a_failure_while_writing_samples_leaves_nothing(running: Bench) -> None:
+    # The sample table is swapped for one that refuses a depth of 2054 mm, so the store
+    # fails after the raw file, its channels and the first sample went in, in the same
+    # transaction; all of it must be rolled back.
+    uuid_type = "UUID" if running.url.startswith("postgresql") else "CHAR(32)"
+    running.raw("ALTER TABLE sample RENAME TO sample_away")
+    running.raw(
+        f"CREATE TABLE sample (raw_file_id {uuid_type}, seq BIGINT, channel INTEGER, "
+        "t_us BIGINT, value FLOAT, CHECK (value <> 2054))"
+    )
+    line = running.fail("record", "import", RUN, str(DATA / "tank-long.csv"), "--map", LEVEL,
+                        "--map", WATER, "--by", "AK")  # fmt: skip
+    assert "refused the change" in line
+    running.raw("DROP TABLE sample")
+    running.raw("ALTER TABLE sample_away RENAME TO sample")
+    assert running.sql("SELECT count(*) FROM raw_file") == [(0,)]
+    assert running.sql("SELECT count(*) FROM logger_channel") == [(0,)]
+
+
+def write(bench: Bench, text: str, name: str = "log.csv") -> str:
+    return str(bench.write(name, text))
+
+
+@pytest.mark.parametrize(
+    ("text", "args", "expected"),
+    [
+        (
+            "time,level\n2027-01-12 16:05:00,205.4\n",
+            [],
+            "log.csv:2: time: time stamp '2027-01-12 16:05:00' has no time zone (give the "
+            "logger's zone with --tz, e.g. --tz Europe/London, or write offsets)",
+        ),
+        (
+            "time,level\n2027-01-12T16:05:00Z,205.4\n2027-01-12 16:05:01,205.5\n",
+            [],
+            "log.csv:3: time: some time stamps carry a time zone and others do not",
+        ),
+        (
+            "time,level\n2027-01-12T16:05:00Z,205.4\n2027-01-12T16:04:59Z,205.5\n",
+            [],
+            "log.csv:3: time: time stamp goes back from the one on line 2",
+        ),
+        (
+            "time,level\n2027-01-12T16:05:00Z,205.4\n2027-01-12T16:05:00Z,205.5\n",
+            [],
+            "log.csv:3: time: time stamp repeats the one on line 2",
+        ),
+        (
+            "time,level\n2027-01-12T16:05:00Z,205.4\n2027-01-12T16:05:01Z,nan\n",
+            [],
+            "log.csv:3: level: 'nan' is not a finite number",
+        ),
+        (
+            "time,level\n2027-01-12T16:05:00Z,inf\n",
+            [],
+            "log.csv:2: level: 'inf' is not a finite number",
+        ),
+        (
+            "time,level\n2027-01-12T16:05:00Z,205.4\nyesterday,205.5\n",
+            [],
+            "log.csv:3: time: cannot read 'yesterday' as an ISO 8601 time stamp",
+        ),
+        (
+            "time,depth\n2027-01-12T16:05:00Z,205.4\n",
+            [],
+            "log.csv:1: --map: no column 'level' (columns are: time, depth)",
+        ),
+        (
+            "stamp,level\n2027-01-12T16:05:00Z,205.4\n",
+            [],
+            "log.csv:1: no 'time' column (columns are: stamp, level)",
+        ),
+        (
+            "time,level,battery\n2027-01-12T16:05:00Z,205.4,3.6\n",
+            [],
+            "log.csv:1: column 'battery' is not in the channel map",
+        ),
+        (
+            "time,channel,value\n2027-01-12T16:05:00Z,level,205.4\n2027-01-12T16:05:00Z,bat,3.6\n",
+            [],
+            "log.csv:3: channel: channel 'bat' is not in the channel map",
+        ),
+        (
+            "time,channel,value\n2027-01-12T16:05:00Z,level,205.4\n2027-01-12T16:05:00Z,level,205.5\n",
+            [],
+            "log.csv:3: time: time stamp repeats the one on line 2 for channel 'level'",
+        ),
+        (
+            "time,level\n2027-03-28 01:30:00,205.4\n",
+            ["--tz", "Europe/London"],
+            "does not exist or is ambiguous in Europe/London (clock change)",
+        ),
+        (
+            "time,level\n2027-01-12T16:05:00Z,205.4,9\n",
+            [],
+            "log.csv: line 2: expected 2 fields, found 3",
+        ),
+        ("", [], "log.csv: the file is empty"),
+        ("time,level\n", [], "log.csv:2: no data lines"),
+        (
+            "time,level\n2027-01-12T16:05:00Z,205.4\n",
+            ["--tz", "Europe/Londres"],
+            "--tz: unknown time zone 'Europe/Londres'",
+        ),
+    ],
+)
+def test_bad_files_are_refused_in_one_line(
+    running: Bench, text: str, args: list[str], expected: str
+) -> None:
+    path = write(running, text)
+    line = running.fail("record", "import", RUN, path, "--map", LEVEL, *args, "--by", "AK")
+    assert expected in line
+    assert running.sql("SELECT count(*) FROM sample") == [(0,)]
+
+
+def test_wrong_encoding_is_named_with_its_line(running: Bench) -> None:
+    path = running.folder / "latin.csv"
+    path.write_bytes(b"time,level\n2027-01-12T16:05:00Z,205.4\n2027-01-12T16:05:01Z,205.5\xb0\n")
+    line = running.fail("record", "import", RUN, str(path), "--map", LEVEL, "--by", "AK")
+    assert line == (
+        f"error: {path}:3: byte 0xb0 is not valid utf-8 (give the file's encoding with "
+        "--encoding, e.g. cp1252)"
+    )
+
+
+@pytest.mark.parametrize(
+    ("mapping", "expected"),
+    [
+        ("level[cm]=depth@PT-03", "error: --map: unknown quantity 'depth' in"),
+        ("level[s]=lowest_point_depth@PT-03", "'s' is not a length unit"),
+        ("level=lowest_point_depth@PT-03", "no unit given; expected a length unit"),
+        ("level[cm]=lowest_point_depth@PT-09", "no equipment 'PT-09' in the register"),
+        ("level[cm]=torque@PT-03", "'cm' is not a torque unit"),
+        ("level cm lowest", "error: --map: cannot read the channel map 'level cm lowest'"),
+    ],
+)
+def test_bad_channel_maps_are_refused(running: Bench, mapping: str, expected: str) -> None:
+    path = write(running, "time,level\n2027-01-12T16:05:00Z,205.4\n")
+    assert expected in running.fail("record", "import", RUN, path, "--map", mapping, "--by", "AK")
+
+
+def test_an_instrument_not_recorded_on_the_run_is_refused(running: Bench) -> None:
+    running("equipment", "add", "PT-04", "--description", "spare transmitter", "--quiet")
+    path = write(running, "time,level\n2027-01-12T16:05:00Z,205.4\n")
+    line = running.fail("record", "import", RUN, path, "--map",
+                        "level[cm]=lowest_point_depth@PT-04", "--by", "AK")  # fmt: skip
+    assert line == (
+        "error: --map: PT-04 was not recorded on run water-8@ip-verification-1 with a "
+        "lowest_point_depth calibration (name the equipment when starting the run, or map "
+        "another instrument)"
+    )
+
+
+def test_missing_file_unknown_run_and_unstarted_run(running: Bench) -> None:
+    missing = running.folder / "gone.csv"
+    assert running.fail("record", "import", RUN, str(missing), "--map", LEVEL, "--by", "AK") == (
+        f"error: {missing}: no such file"
+    )
+    path = write(running, "time,level\n2027-01-12T16:05:00Z,205.4\n")
+    assert "no run 'water-9@x-1' in the store" in running.fail(
+        "record", "import", "water-9@x-1", path, "--map", LEVEL, "--by", "AK"
+    )
+    assert "cannot import data into run water-6@aged-1: it has not been started" in running.fail(
+        "record", "import", "water-6@aged-1", path, "--map", LEVEL, "--by", "AK"
+    )
+
+
+def test_channels_can_name_the_specimen_they_measure(bench: Bench) -> None:
+    bench("equipment", "add", "TT-07", "--description", "two-channel surface thermometer",
+          "--quiet")  # fmt: skip
+    bench("equipment", "calibrate", "TT-07", "--channel", "specimen_temperature", "--certificate",
+          "VC-2026-201", "--provider", "Vale Calibration Ltd", "--calibrated", "2026-09-01",
+          "--due", "2027-09-01", "--uncertainty", "0.5 K", "--quiet")  # fmt: skip
+    start = [*START, "--equipment", "TT-07"]
+    bench("record", "start", RUN, *start, "--at", "2027-01-12T16:05Z", "--quiet")
+    path = write(bench, "time,s1,s2\n2027-01-12T16:05:00Z,15.5,15.9\n")
+    maps = ["--map", "s1[degC]=specimen_temperature@TT-07#QC-2027-014-S01",
+            "--map", "s2[degC]=specimen_temperature@TT-07#QC-2027-014-S02"]  # fmt: skip
+    bench("record", "import", RUN, path, *maps, "--by", "AK", "--quiet")
+    rows = bench.sql(
+        "SELECT c.source, s.serial FROM logger_channel c JOIN specimen s "
+        "ON s.id = c.specimen_id ORDER BY c.number"
+    )
+    assert rows == [("s1", "QC-2027-014-S01"), ("s2", "QC-2027-014-S02")]
+    bad = ["--map", "s1[degC]=specimen_temperature@TT-07#QC-2027-014-S05", "--skip-unmapped"]
+    line = bench.fail("record", "import", RUN, path, *bad, "--by", "AK")
+    assert line == (
+        "error: --map: specimen 'QC-2027-014-S05' is not on run water-8@ip-verification-1 "
+        "(it has QC-2027-014-S01, QC-2027-014-S02)"
+    )

@@ -1,0 +1,142 @@
+"""`testplan record observe`: observations from options or a sheet, photos by SHA-256."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import shutil
+from pathlib import Path
+
+from .conftest import START, Bench
+
+RUN = "water-8@ip-verification-1"
+PHOTO = Path(__file__).resolve().parents[1] / "data" / "photos" / "gland-after-immersion.png"
+
+SHEET = """\
+specimen = "QC-2027-014-S01"
+checkpoint = "after 72 h immersion"
+
+[ingress]
+medium = "water"
+found = true
+where = "film of water under the cable gland nut"
+live_parts = "clear"
+
+[mass]
+before = "1.2345 kg"
+after = "1235.1 g"
+
+[leak_test]
+start_pressure = "1200 mbar"
+end_pressure = "1199.2 mbar"
+duration = "10 min"
+start_temperature = "21.4 degC"
+end_temperature = "21.3 degC"
+barometric_pressure = "1012 mbar"
+dead_volume = "50 mL"
+
+[function]
+result = "pass"
+
+[insulation]
+resistance = "0.42 Gohm"
+test_voltage = "500 V"
+
+[[photo]]
+file = "gland-after-immersion.png"
+caption = "gland nut after drying the outside"
+
+[[note]]
+specimen = "QC-2027-014-S02"
+text = "no water seen"
+"""
+
+
+def started(bench: Bench) -> Bench:
+    bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
+    return bench
+
+
+def test_a_sheet_is_stored_in_plan_units_with_its_photo(bench: Bench) -> None:
+    started(bench)
+    shutil.copy(PHOTO, bench.folder / PHOTO.name)
+    sheet = bench.write("s01.toml", SHEET)
+    result = bench("record", "observe", RUN, "--sheet", str(sheet), "--by", "AK")
+    assert result.stdout.strip() == f"{RUN}: 7 observation(s) recorded"
+    rows = bench.sql(
+        "SELECT o.kind, o.checkpoint, o.data_json, s.serial FROM observation o "
+        "LEFT JOIN specimen s ON s.id = o.specimen_id ORDER BY o.recorded_at, o.kind"
+    )
+    data = {kind: (json.loads(d), serial) for kind, _, d, serial in rows}
+    assert data["mass"][0] == {"before": 1234.5, "after": 1235.1}
+    leak = data["leak_test"][0]
+    assert leak["duration"] == 600.0 and leak["dead_volume"] == 0.05
+    assert leak["start_pressure"] == 1200.0 and leak["end_pressure"] == 1199.2
+    assert data["insulation"][0] == {"resistance": 420.0, "test_voltage": 500.0}
+    assert data["ingress"][0]["found"] is True
+    assert data["note"] == ({"text": "no water seen"}, "QC-2027-014-S02")
+    assert all(cp == "after 72 h immersion" for _, cp, _, _ in rows)
+    sha = hashlib.sha256(PHOTO.read_bytes()).hexdigest()
+    assert bench.sql("SELECT sha256, media_type, size FROM attachment") == [
+        (sha, "image/png", PHOTO.stat().st_size)
+    ]
+
+
+def test_the_same_photo_twice_is_stored_once(bench: Bench) -> None:
+    started(bench)
+    for _ in range(2):
+        bench("record", "observe", RUN, "--photo", str(PHOTO), "--checkpoint", "after",
+              "--by", "AK", "--quiet")  # fmt: skip
+    assert bench.sql("SELECT count(*) FROM attachment") == [(1,)]
+    assert bench.sql("SELECT count(*) FROM observation") == [(2,)]
+
+
+def test_options_record_ingress_function_insulation_and_torque(bench: Bench) -> None:
+    started(bench)
+    bench("record", "observe", RUN, "--specimen", "QC-2027-014-S02", "--ingress", "water:none",
+          "--function", "pass", "--insulation", "420 Mohm", "--by", "AK", "--quiet")  # fmt: skip
+    kinds = [k for (k,) in bench.sql("SELECT kind FROM observation ORDER BY kind")]
+    assert kinds == ["function", "ingress", "insulation"]
+
+
+def test_bad_sheets_are_refused_naming_line_and_key(bench: Bench) -> None:
+    started(bench)
+    cases = {
+        'after = "1235.1 g"': ('after = "1235.1 s"', ":12: mass.after: '1235.1 s' is not a mass"),
+        'result = "pass"': ('result = "ok"', ":24: function.result: expected one of pass, fail"),
+        'medium = "water"': ('medium = "steam"', ":5: ingress.medium: expected one of water"),
+        "found = true": ('found = "yes"', ":6: ingress.found: expected true or false, got 'yes'"),
+        'dead_volume = "50 mL"': (
+            'dead_volume = "50 mL"\nleak = 3',
+            ":22: leak_test.leak: unknown field 'leak' for leak_test",
+        ),
+        "[function]": ("[functon]", ":23: functon: unknown observation 'functon'"),
+        'specimen = "QC-2027-014-S02"': (
+            'specimen = "QC-2027-014-S09"',
+            "specimen: specimen 'QC-2027-014-S09' is not on run",
+        ),
+    }
+    shutil.copy(PHOTO, bench.folder / PHOTO.name)
+    for old, (new, expected) in cases.items():
+        sheet = bench.write("bad.toml", SHEET.replace(old, new))
+        line = bench.fail("record", "observe", RUN, "--sheet", str(sheet), "--by", "AK")
+        assert expected in line, (old, line)
+    assert bench.sql("SELECT count(*) FROM observation") == [(0,)]
+    assert bench.sql("SELECT count(*) FROM attachment") == [(0,)]
+
+
+def test_option_refusals(bench: Bench) -> None:
+    started(bench)
+    assert "error: --ingress: cannot read 'water'" in bench.fail(
+        "record", "observe", RUN, "--ingress", "water", "--by", "AK"
+    )
+    assert "--insulation: '420' has no unit" in bench.fail(
+        "record", "observe", RUN, "--insulation", "420", "--by", "AK"
+    )
+    assert "nothing to record" in bench.fail("record", "observe", RUN, "--by", "AK")
+    assert "cannot read the photo" in bench.fail(
+        "record", "observe", RUN, "--photo", "nowhere.jpg", "--by", "AK"
+    )
+    assert "error: --rating: 11 is above 10" in bench.fail(
+        "record", "observe", RUN, "--rating", "11", "--by", "AK"
+    )
