@@ -17,6 +17,7 @@ demo: $(STAMP)
 	mkdir -p demo-out
 	$(BIN)/testplan plan sample_campaign/flood-gauge-node.toml --chart demo-out/calendar.svg \
 		--html demo-out/plan.html
+	PATH="$(CURDIR)/$(BIN):$$PATH" sample_campaign/record_demo.sh demo-out
 
 lint: $(STAMP)
 	$(BIN)/ruff check testplan tests sample_campaign db

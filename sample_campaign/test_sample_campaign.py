@@ -2,8 +2,13 @@
 
 from __future__ import annotations
 
+import os
+import subprocess
+import sys
 from pathlib import Path
 
+import pytest
+import sqlalchemy as sa
 from typer.testing import CliRunner
 
 from testplan.cli import app
@@ -29,3 +34,43 @@ def test_demo_plan_reads_in_100_columns() -> None:
         "2054 mm",
     ):
         assert needle in text, needle
+
+
+@pytest.mark.slow
+def test_demo_bench_work_records_five_runs_and_checks_out(tmp_path: Path) -> None:
+    env = {**os.environ, "PATH": f"{Path(sys.executable).parent}{os.pathsep}{os.environ['PATH']}"}
+    env.pop("TESTPLAN_DB", None)
+    script = Path(__file__).with_name("record_demo.sh")
+    result = subprocess.run([str(script), str(tmp_path)], capture_output=True, text=True, env=env)
+    assert result.returncode == 0, result.stderr[-2000:]
+    assert "Traceback" not in result.stderr
+    lines = result.stdout.splitlines()
+    assert any(line.startswith("ok: ") and "6 raw files" in line for line in lines)
+    states = dict(ln.split()[::3] for ln in lines if len(ln.split()) == 4 and "@" in ln)
+    checked = sorted(run for run, state in states.items() if state == "checked")
+    assert checked == [
+        "endurance-mode-selector-knob@aged-1",
+        "salt-mist@aged-1",
+        "water-6@ip-verification-1",
+        "water-8@aged-1",
+        "water-8@ip-verification-1",
+    ]
+    engine = sa.create_engine(f"sqlite:///{tmp_path / 'testplan.db'}")
+    try:
+        with engine.connect() as conn:
+            assert conn.execute(sa.text("SELECT count(*) FROM raw_file")).scalar() == 6
+            # The made-to-fail run: the lowest point above 2053.7 mm for four minutes.
+            shallow = conn.execute(sa.text(
+                "SELECT count(*) FROM sample s JOIN logger_channel c ON c.raw_file_id = "
+                "s.raw_file_id AND c.number = s.channel JOIN raw_file f ON f.id = s.raw_file_id "
+                "WHERE f.name = 'tank-aged1.csv' AND c.quantity = 'lowest_point_depth' "
+                "AND s.value > 1900 AND s.value < 2053.7"
+            )).scalar()  # fmt: skip
+            assert shallow == 4
+            found = conn.execute(sa.text(
+                "SELECT o.data_json FROM observation o JOIN specimen s ON s.id = o.specimen_id "
+                "WHERE o.kind = 'ingress' AND s.serial = 'QC-2027-014-S04'"
+            )).scalar()  # fmt: skip
+            assert '"found":true' in found
+    finally:
+        engine.dispose()

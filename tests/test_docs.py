@@ -49,3 +49,11 @@ def test_quantity_table_matches_the_code() -> None:
 
 def test_readme_has_the_two_setup_commands() -> None:
     assert "make demo" in README and "make test" in README
+
+
+def test_loggable_quantity_table_matches_the_code() -> None:
+    from testplan.domain.channels import CHANNELS
+
+    for c in CHANNELS.values():
+        row = f"| `{c.name}` | {c.unit or '(none)'} | {c.meaning} |"
+        assert row in README, row

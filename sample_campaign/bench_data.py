@@ -1,0 +1,208 @@
+"""Invented bench data for the demo: logger files and observation sheets for the RiverWatch
+RW-40 flood-gauge node. Nothing here was measured; it only exercises the tool.
+
+    python sample_campaign/bench_data.py OUT_DIR
+
+writes the files `record_demo.sh` imports. The same seed gives the same files. One run
+is made to fail: on the aged leg's immersion the tank is topped up at hour 30 and the
+lowest point rises above the required depth for four minutes, and specimen S04 lets
+water in under its cable-gland nut.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+import random
+import sys
+from pathlib import Path
+
+RNG = random.Random(20270111)
+
+
+def _stamp(t: dt.datetime, zoned: bool) -> str:
+    return t.isoformat(timespec="seconds") if zoned else t.strftime("%Y-%m-%d %H:%M:%S")
+
+
+def immersion(path: Path, start: dt.datetime, hours: float, dip_at_h: float | None) -> None:
+    """Tank logger, wide, local time without zone, one line a minute: depth in cm, temps in C."""
+    lines = ["timestamp,depth_cm,water_C,s1_C,s2_C"]
+    minutes = int(hours * 60) + 8
+    for m in range(minutes + 1):
+        t = start + dt.timedelta(minutes=m)
+        if m < 4:
+            depth = 53.0 * m  # lowering
+        elif m > minutes - 4:
+            depth = 53.0 * (minutes - m)
+        else:
+            depth = 212.0 + RNG.gauss(0, 0.15)
+        if dip_at_h is not None and dip_at_h * 60 <= m < dip_at_h * 60 + 4:
+            depth = 198.5 + RNG.gauss(0, 0.1)  # topping up: level drawn down
+        water = 12.0 + 0.3 * math.sin(m / 720) + RNG.gauss(0, 0.03)
+        s1 = water + 3.6 * math.exp(-m / 40) + RNG.gauss(0, 0.05)
+        s2 = water + 3.9 * math.exp(-m / 45) + RNG.gauss(0, 0.05)
+        lines.append(f"{_stamp(t, False)},{depth:.1f},{water:.2f},{s1:.2f},{s2:.2f}")
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+
+
+def jet(path: Path, start: dt.datetime) -> None:
+    """Jet booth flow meter, long format with offsets, every 5 s: flow L/min, pressure bar."""
+    lines = ["time,channel,value"]
+    for i in range(0, 3 * 60 + 5, 5):
+        t = start + dt.timedelta(seconds=i)
+        lines.append(f"{_stamp(t, True)},Q1,{100.0 + RNG.gauss(0, 0.9):.2f}")
+        lines.append(f"{_stamp(t, True)},P1,{1.02 + RNG.gauss(0, 0.01):.3f}")
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+
+
+def endurance(path: Path, start: dt.datetime, cycles: int, rate_per_min: float) -> None:
+    """Cycling rig, wide, UTC with Z, a line every 200 cycles: cycles and torque per station."""
+    lines = ["time,cycles,tq_st1,tq_st2,tq_st3"]
+    base = (26.4, 27.1, 25.8)
+    for c in range(0, cycles + 1, 200):
+        t = start + dt.timedelta(minutes=c / rate_per_min)
+        wear = c / cycles
+        tq = [b * (1 - 0.06 * wear) + RNG.gauss(0, 0.25) for b in base]
+        lines.append(
+            f"{t.strftime('%Y-%m-%dT%H:%M:%SZ')},{c},{tq[0]:.2f},{tq[1]:.2f},{tq[2]:.2f}"
+        )
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+
+
+def salt_mist(cabinet: Path, fog: Path, start: dt.datetime, cycles: int) -> None:
+    """Cabinet logger every 5 min (long, UTC) and the fog collection read after each spray."""
+    lines = ["time,channel,value"]
+    for k in range(cycles * 24 * 12):
+        t = start + dt.timedelta(minutes=5 * k)
+        hour = (k * 5 / 60) % 24
+        if hour < 2:  # spraying at 35 C
+            temp, rh = 35.0 + RNG.gauss(0, 0.3), None
+            lines.append(f"{t:%Y-%m-%dT%H:%M:%SZ},cab_T,{temp:.2f}")
+        else:  # humid storage at 40 C, 93 %RH
+            temp, rh = 40.0 + RNG.gauss(0, 0.4), 93.0 + RNG.gauss(0, 0.6)
+            lines.append(f"{t:%Y-%m-%dT%H:%M:%SZ},hum_T,{temp:.2f}")
+            lines.append(f"{t:%Y-%m-%dT%H:%M:%SZ},hum_RH,{rh:.1f}")
+    cabinet.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    rows = ["time,fog_ml_h,ph"]
+    for c in range(cycles):
+        t = start + dt.timedelta(hours=24 * c + 2)
+        rows.append(f"{t:%Y-%m-%dT%H:%M:%SZ},{1.45 + RNG.gauss(0, 0.12):.2f},"
+                    f"{6.8 + RNG.gauss(0, 0.05):.2f}")  # fmt: skip
+    fog.write_text("\n".join(rows) + "\n", encoding="utf-8")
+
+
+SHEET_PASS = """\
+checkpoint = "after {what}"
+
+[[ingress]]
+specimen = "{a}"
+medium = "water"
+found = false
+
+[[ingress]]
+specimen = "{b}"
+medium = "water"
+found = false
+
+[[leak_test]]
+specimen = "{a}"
+start_pressure = "1200.0 mbar"
+end_pressure = "1199.6 mbar"
+duration = "10 min"
+start_temperature = "21.4 degC"
+end_temperature = "21.4 degC"
+barometric_pressure = "1012 mbar"
+dead_volume = "45 mL"
+
+[[function]]
+specimen = "{a}"
+result = "pass"
+
+[[function]]
+specimen = "{b}"
+result = "pass"
+
+[[insulation]]
+specimen = "{a}"
+resistance = "2.4 Gohm"
+test_voltage = "500 V"
+
+[[insulation]]
+specimen = "{b}"
+resistance = "1.9 Gohm"
+test_voltage = "500 V"
+"""
+
+SHEET_FAIL = """\
+checkpoint = "after 72 h immersion"
+
+[[ingress]]
+specimen = "QC-2027-014-S03"
+medium = "water"
+found = false
+
+[[ingress]]
+specimen = "QC-2027-014-S04"
+medium = "water"
+found = true
+where = "film of water under the cable-gland nut, about 0.3 mL"
+live_parts = "clear"
+
+[[mass]]
+specimen = "QC-2027-014-S04"
+before = "1234.5 g"
+after = "1234.8 g"
+
+[[function]]
+specimen = "QC-2027-014-S04"
+result = "pass"
+
+[[insulation]]
+specimen = "QC-2027-014-S04"
+resistance = "38 Mohm"
+test_voltage = "500 V"
+
+[[photo]]
+specimen = "QC-2027-014-S04"
+file = "s04-gland.png"
+caption = "S04 cable-gland nut, water film at the thread"
+"""
+
+
+def photo(path: Path) -> None:
+    """A small drawing standing in for the bench photo of S04's gland."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    fig, ax = plt.subplots(figsize=(3, 2), dpi=80)
+    ax.add_patch(plt.Circle((0.5, 0.5), 0.35, fill=False, lw=3))
+    ax.add_patch(plt.Circle((0.5, 0.5), 0.12, color="0.3"))
+    ax.annotate("water film", (0.72, 0.3), (0.95, 0.05), arrowprops={"arrowstyle": "->"})
+    ax.set_xlim(0, 1.2)
+    ax.set_ylim(0, 1)
+    ax.axis("off")
+    fig.savefig(path, metadata={"Software": None})
+    plt.close(fig)
+
+
+def main(out: Path) -> None:
+    out.mkdir(parents=True, exist_ok=True)
+    utc = dt.UTC
+    jet(out / "jet-ip1.csv", dt.datetime(2027, 1, 12, 8, 5, tzinfo=utc))
+    immersion(out / "tank-ip1.csv", dt.datetime(2027, 1, 12, 16, 10), 72, None)
+    endurance(out / "rig-knob.csv", dt.datetime(2027, 1, 12, 11, 0, tzinfo=utc), 54000, 10)
+    salt_mist(out / "cabinet.csv", out / "fog.csv", dt.datetime(2027, 1, 18, 8, 0, tzinfo=utc), 3)
+    immersion(out / "tank-aged1.csv", dt.datetime(2027, 1, 21, 14, 10), 72, 30.0)
+    (out / "after-ip1.toml").write_text(
+        SHEET_PASS.format(what="72 h immersion", a="QC-2027-014-S01", b="QC-2027-014-S02")
+    )
+    (out / "after-aged1.toml").write_text(SHEET_FAIL)
+    photo(out / "s04-gland.png")
+
+
+if __name__ == "__main__":
+    if len(sys.argv) != 2:
+        sys.exit("usage: python sample_campaign/bench_data.py OUT_DIR")
+    main(Path(sys.argv[1]))

@@ -1,0 +1,105 @@
+#!/usr/bin/env bash
+# The demo's bench work for the invented RiverWatch RW-40 flood-gauge node: people,
+# equipment with calibrations, and five runs recorded from invented logger files and
+# observation sheets (bench_data.py). One run, water-8@aged-1, is made to fail.
+#   sample_campaign/record_demo.sh OUT_DIR     (testplan and python on PATH)
+set -euo pipefail
+out=${1:-demo-out}
+here=$(cd "$(dirname "$0")" && pwd)
+mkdir -p "$out"
+export TESTPLAN_DB="$out/testplan.db"
+rm -f "$TESTPLAN_DB" "$TESTPLAN_DB-wal" "$TESTPLAN_DB-shm"
+"${PYTHON:-python}" "$here/bench_data.py" "$out/bench"
+bench="$out/bench"
+q=--quiet
+S=QC-2027-014-S
+
+# People and what each is authorised for.
+testplan people add AK --name "Anna Kowal" --role operator $q
+testplan people add JT --name "Jo Tran" --role operator --role checker --by AK $q
+testplan people add MO --name "Mark Osei" --role checker --role approver --by AK $q
+testplan people add RP --name "Rita Pereira" --role preparer --by MO $q
+testplan people add LV --name "Lars Vik" --role reviewer --by MO $q
+
+testplan init "$here/flood-gauge-node.toml" --by AK $q
+
+# Equipment and calibrations (values in each channel's plan unit unless a unit is given).
+cal() { testplan equipment calibrate "$@" --provider "Vale Calibration Ltd" --by AK $q; }
+testplan equipment add PT-03 --description "tank level and temperature transmitter" --serial 88213 --by AK $q
+cal PT-03 --channel lowest_point_depth --certificate VC-2026-118 --calibrated 2026-06-01 --due 2027-06-01 --uncertainty "4 mm" --range "0 mm" "3000 mm"
+cal PT-03 --channel water_temperature --certificate VC-2026-118 --calibrated 2026-06-01 --due 2027-06-01 --uncertainty "0.2 K" --range "0 degC" "40 degC"
+testplan equipment add TT-07 --description "two-channel surface thermometer" --serial T7-5521 --by AK $q
+cal TT-07 --channel specimen_temperature --certificate VC-2026-201 --calibrated 2026-09-01 --due 2027-09-01 --uncertainty "0.5 K" --range "-10 degC" "60 degC"
+testplan equipment add FM-02 --description "jet flow meter with nozzle pressure gauge" --serial FM-20-114 --by AK $q
+cal FM-02 --channel flow --certificate VC-2026-077 --calibrated 2026-04-15 --due 2027-04-15 --uncertainty "1.2 L/min" --range "10 L/min" "150 L/min"
+cal FM-02 --channel nozzle_pressure --certificate VC-2026-077 --calibrated 2026-04-15 --due 2027-04-15 --uncertainty "2 kPa" --range "0 kPa" "400 kPa"
+testplan equipment add TQ-11 --description "endurance rig: cycle counter and three torque stations" --serial RIG-3 --by AK $q
+cal TQ-11 --channel torque --certificate VC-2026-163 --calibrated 2026-08-10 --due 2027-08-10 --uncertainty "0.4 N*mm" --range "0 N*mm" "100 N*mm"
+cal TQ-11 --channel cycle_count --certificate VC-2026-163 --calibrated 2026-08-10 --due 2027-08-10 --uncertainty 0 --k 1
+testplan equipment add SC-01 --description "salt-mist cabinet temperature and humidity sensors" --serial SMC-880 --by AK $q
+cal SC-01 --channel cabinet_temperature --certificate VC-2026-190 --calibrated 2026-07-20 --due 2027-07-20 --uncertainty "0.4 K" --range "10 degC" "60 degC"
+cal SC-01 --channel humid_temperature --certificate VC-2026-190 --calibrated 2026-07-20 --due 2027-07-20 --uncertainty "0.4 K" --range "10 degC" "60 degC"
+cal SC-01 --channel humid_rh --certificate VC-2026-190 --calibrated 2026-07-20 --due 2027-07-20 --uncertainty "1.5 %" --range "20 %" "98 %"
+testplan equipment add FC-01 --description "fog collectors (80 cm^2) and graduated cylinder" --by AK $q
+cal FC-01 --channel fog_collection --certificate VC-2026-191 --calibrated 2026-07-20 --due 2027-07-20 --uncertainty "0.05 mL/h"
+testplan equipment add PH-02 --description "pH meter" --serial PH-4410 --by AK $q
+cal PH-02 --channel solution_ph --certificate VC-2026-205 --calibrated 2026-11-02 --due 2027-05-02 --uncertainty 0.05 --range 2 12
+
+amb=(--ambient-temperature "21.5 degC" --ambient-humidity "46 %" --ambient-pressure "1012 hPa")
+
+# Jet test of S01.
+run=water-6@ip-verification-1
+testplan record start $run --operator AK --equipment FM-02 "${amb[@]}" --state-ok --at 2027-01-12T08:05Z $q
+testplan record import $run "$bench/jet-ip1.csv" --map "Q1[L/min]=flow@FM-02" --map "P1[bar]=nozzle_pressure@FM-02" --by AK $q
+testplan record observe $run --specimen ${S}01 --checkpoint "after jets" --ingress water:none --function pass --insulation "3.1 Gohm" --by AK $q
+testplan record finish $run --by AK --at 2027-01-12T08:09Z $q
+testplan record check $run --by MO $q
+
+# 72 h immersion at 2 m of S01 and S02.
+run=water-8@ip-verification-1
+testplan record start $run --operator AK --equipment PT-03 --equipment TT-07 "${amb[@]}" --state-ok \
+    --precondition "24 h at 21 degC after re-sealing" --at 2027-01-12T16:10Z $q
+testplan record import $run "$bench/tank-ip1.csv" --tz Europe/London --time-column timestamp \
+    --map "depth_cm[cm]=lowest_point_depth@PT-03" --map "water_C[degC]=water_temperature@PT-03" \
+    --map "s1_C[degC]=specimen_temperature@TT-07#${S}01" --map "s2_C[degC]=specimen_temperature@TT-07#${S}02" --by AK $q
+testplan record observe $run --sheet "$bench/after-ip1.toml" --by AK $q
+testplan record finish $run --by AK --at 2027-01-15T16:20Z $q
+testplan record check $run --by MO $q
+
+# Mode-selector knob endurance on S03-S05 (three rig stations).
+run=endurance-mode-selector-knob@aged-1
+testplan record start $run --operator JT --equipment TQ-11 "${amb[@]}" --state-ok --at 2027-01-12T11:00Z $q
+testplan record import $run "$bench/rig-knob.csv" --map "cycles[cycle]=cycle_count@TQ-11" \
+    --map "tq_st1[N*mm]=torque@TQ-11#${S}03" --map "tq_st2[N*mm]=torque@TQ-11#${S}04" \
+    --map "tq_st3[N*mm]=torque@TQ-11#${S}05" --by JT $q
+testplan record observe $run --note "no failures; detents crisp on all three at 54 000 cycles" --by JT $q
+testplan record finish $run --by JT --at 2027-01-16T05:05Z $q
+testplan record check $run --by MO $q
+
+# Salt mist, IEC 60068-2-52 method 2, on S03-S05.
+run=salt-mist@aged-1
+testplan record start $run --operator AK --equipment SC-01 --equipment FC-01 --equipment PH-02 "${amb[@]}" \
+    --state-ok --at 2027-01-18T08:00Z $q
+testplan record import $run "$bench/cabinet.csv" --map "cab_T[degC]=cabinet_temperature@SC-01" \
+    --map "hum_T[degC]=humid_temperature@SC-01" --map "hum_RH[%]=humid_rh@SC-01" --by AK $q
+testplan record import $run "$bench/fog.csv" --map "fog_ml_h[mL/h]=fog_collection@FC-01" \
+    --map "ph=solution_ph@PH-02" --by AK $q
+for n in 03 04 05; do
+    rating=9; [ $n = 05 ] && rating=10
+    testplan record observe $run --specimen ${S}$n --checkpoint "after 3 cycles and recovery" --rating $rating --by AK $q
+done
+testplan record finish $run --by AK --at 2027-01-21T08:00Z $q
+testplan record check $run --by JT $q
+
+# 72 h immersion of S03 and S04 after ageing: the tank is topped up at hour 30.
+run=water-8@aged-1
+testplan record start $run --operator AK --equipment PT-03 --equipment TT-07 "${amb[@]}" --state-ok --at 2027-01-21T14:10Z $q
+testplan record import $run "$bench/tank-aged1.csv" --tz Europe/London --time-column timestamp \
+    --map "depth_cm[cm]=lowest_point_depth@PT-03" --map "water_C[degC]=water_temperature@PT-03" \
+    --map "s1_C[degC]=specimen_temperature@TT-07#${S}03" --map "s2_C[degC]=specimen_temperature@TT-07#${S}04" --by AK $q
+testplan record observe $run --sheet "$bench/after-aged1.toml" --by AK $q
+testplan record finish $run --by AK --at 2027-01-24T14:20Z $q
+testplan record check $run --by JT $q
+
+testplan store check
+testplan record list
