@@ -27,7 +27,7 @@ def _stamp(t: dt.datetime, zoned: bool) -> str:
 def immersion(path: Path, start: dt.datetime, hours: float, dip_at_h: float | None) -> None:
     """Tank logger, wide, local time without zone, one line a minute: depth in cm, temps in C."""
     lines = ["timestamp,depth_cm,water_C,s1_C,s2_C"]
-    minutes = int(hours * 60) + 8
+    minutes = int(hours * 60) + 18  # lowering, 72 h 10 min held, raising
     for m in range(minutes + 1):
         t = start + dt.timedelta(minutes=m)
         if m < 4:
@@ -74,14 +74,12 @@ def salt_mist(cabinet: Path, fog: Path, start: dt.datetime, cycles: int) -> None
     lines = ["time,channel,value"]
     for k in range(cycles * 24 * 12):
         t = start + dt.timedelta(minutes=5 * k)
-        hour = (k * 5 / 60) % 24
-        if hour < 2:  # spraying at 35 C
-            temp, rh = 35.0 + RNG.gauss(0, 0.3), None
-            lines.append(f"{t:%Y-%m-%dT%H:%M:%SZ},cab_T,{temp:.2f}")
-        else:  # humid storage at 40 C, 93 %RH
-            temp, rh = 40.0 + RNG.gauss(0, 0.4), 93.0 + RNG.gauss(0, 0.6)
-            lines.append(f"{t:%Y-%m-%dT%H:%M:%SZ},hum_T,{temp:.2f}")
-            lines.append(f"{t:%Y-%m-%dT%H:%M:%SZ},hum_RH,{rh:.1f}")
+        stamp = f"{t:%Y-%m-%dT%H:%M:%SZ}"
+        if (k * 5 / 60) % 24 < 2:  # the spray cabinet runs at 35 C while spraying
+            lines.append(f"{stamp},cab_T,{35.0 + RNG.gauss(0, 0.3):.2f}")
+        # the humidity chamber runs on at 40 C and 93 %RH throughout
+        lines.append(f"{stamp},hum_T,{40.0 + RNG.gauss(0, 0.4):.2f}")
+        lines.append(f"{stamp},hum_RH,{93.0 + RNG.gauss(0, 0.6):.1f}")
     cabinet.write_text("\n".join(lines) + "\n", encoding="utf-8")
     rows = ["time,fog_ml_h,ph"]
     for c in range(cycles):
@@ -91,55 +89,43 @@ def salt_mist(cabinet: Path, fog: Path, start: dt.datetime, cycles: int) -> None
     fog.write_text("\n".join(rows) + "\n", encoding="utf-8")
 
 
-SHEET_PASS = """\
-checkpoint = "after {what}"
-
+def sheet_pass(what: str, specimens: list[str]) -> str:
+    """After-test observations of specimens that kept the water out."""
+    parts = [f'checkpoint = "after {what}"\n']
+    for i, s in enumerate(specimens):
+        drop = 0.18 + 0.04 * i
+        parts.append(
+            f"""
 [[ingress]]
-specimen = "{a}"
-medium = "water"
-found = false
-
-[[ingress]]
-specimen = "{b}"
+specimen = "{s}"
 medium = "water"
 found = false
 
 [[leak_test]]
-specimen = "{a}"
-start_pressure = "1200.0 mbar"
-end_pressure = "1199.6 mbar"
+specimen = "{s}"
+start_pressure = "1200.00 mbar"
+end_pressure = "{1200 - drop:.2f} mbar"
 duration = "10 min"
 start_temperature = "21.4 degC"
 end_temperature = "21.4 degC"
 barometric_pressure = "1012 mbar"
 dead_volume = "45 mL"
+gauge = "PG-01"
 
 [[function]]
-specimen = "{a}"
-result = "pass"
-
-[[function]]
-specimen = "{b}"
+specimen = "{s}"
 result = "pass"
 
 [[insulation]]
-specimen = "{a}"
-resistance = "2.4 Gohm"
+specimen = "{s}"
+resistance = "{2.4 - 0.3 * i:.1f} Gohm"
 test_voltage = "500 V"
-
-[[insulation]]
-specimen = "{b}"
-resistance = "1.9 Gohm"
-test_voltage = "500 V"
+meter = "IR-04"
 """
+        )
+    return "".join(parts)
 
-SHEET_FAIL = """\
-checkpoint = "after 72 h immersion"
-
-[[ingress]]
-specimen = "QC-2027-014-S03"
-medium = "water"
-found = false
+SHEET_FAIL = sheet_pass("72 h immersion", ["QC-2027-014-S03"]) + """
 
 [[ingress]]
 specimen = "QC-2027-014-S04"
@@ -161,6 +147,7 @@ result = "pass"
 specimen = "QC-2027-014-S04"
 resistance = "38 Mohm"
 test_voltage = "500 V"
+meter = "IR-04"
 
 [[photo]]
 specimen = "QC-2027-014-S04"
@@ -195,9 +182,12 @@ def main(out: Path) -> None:
     endurance(out / "rig-knob.csv", dt.datetime(2027, 1, 12, 11, 0, tzinfo=utc), 54000, 10)
     salt_mist(out / "cabinet.csv", out / "fog.csv", dt.datetime(2027, 1, 18, 8, 0, tzinfo=utc), 3)
     immersion(out / "tank-aged1.csv", dt.datetime(2027, 1, 21, 14, 10), 72, 30.0)
+    immersion(out / "tank-aged2.csv", dt.datetime(2027, 1, 25, 8, 10), 72, None)
     (out / "after-ip1.toml").write_text(
-        SHEET_PASS.format(what="72 h immersion", a="QC-2027-014-S01", b="QC-2027-014-S02")
+        sheet_pass("72 h immersion", ["QC-2027-014-S01", "QC-2027-014-S02"])
     )
+    (out / "after-aged2.toml").write_text(sheet_pass("72 h immersion", ["QC-2027-014-S05"]))
+    (out / "after-jets.toml").write_text(sheet_pass("jets", ["QC-2027-014-S01"]))
     (out / "after-aged1.toml").write_text(SHEET_FAIL)
     photo(out / "s04-gland.png")
 

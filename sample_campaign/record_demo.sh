@@ -1,6 +1,6 @@
 #!/usr/bin/env bash
 # The demo's bench work for the invented RiverWatch RW-40 flood-gauge node: people,
-# equipment with calibrations, and five runs recorded from invented logger files and
+# equipment with calibrations, and six runs recorded from invented logger files and
 # observation sheets (bench_data.py). One run, water-8@aged-1, is made to fail.
 #   sample_campaign/record_demo.sh OUT_DIR     (testplan and python on PATH)
 set -euo pipefail
@@ -45,13 +45,18 @@ cal FC-01 --channel fog_collection --certificate VC-2026-191 --calibrated 2026-0
 testplan equipment add PH-02 --description "pH meter" --serial PH-4410 --by AK $q
 cal PH-02 --channel solution_ph --certificate VC-2026-205 --calibrated 2026-11-02 --due 2027-05-02 --uncertainty 0.05 --range 2 12
 
+testplan equipment add PG-01 --description "absolute pressure gauge for leak tests" --serial PG-7781 --by AK $q
+cal PG-01 --channel test_pressure --certificate VC-2026-233 --calibrated 2026-10-05 --due 2027-10-05 --uncertainty "0.05 mbar" --range "800 mbar" "1600 mbar"
+testplan equipment add IR-04 --description "insulation resistance tester" --serial IR-3310 --by AK $q
+cal IR-04 --channel insulation_resistance --certificate VC-2026-240 --calibrated 2026-10-12 --due 2027-10-12 --uncertainty "20 Mohm" --range "1 Mohm" "10000 Mohm"
+
 amb=(--ambient-temperature "21.5 degC" --ambient-humidity "46 %" --ambient-pressure "1012 hPa")
 
 # Jet test of S01.
 run=water-6@ip-verification-1
 testplan record start $run --operator AK --equipment FM-02 "${amb[@]}" --state-ok --at 2027-01-12T08:05Z $q
 testplan record import $run "$bench/jet-ip1.csv" --map "Q1[L/min]=flow@FM-02" --map "P1[bar]=nozzle_pressure@FM-02" --by AK $q
-testplan record observe $run --specimen ${S}01 --checkpoint "after jets" --ingress water:none --function pass --insulation "3.1 Gohm" --by AK $q
+testplan record observe $run --sheet "$bench/after-jets.toml" --by AK $q
 testplan record finish $run --by AK --at 2027-01-12T08:09Z $q
 testplan record check $run --by MO $q
 
@@ -86,7 +91,8 @@ testplan record import $run "$bench/fog.csv" --map "fog_ml_h[mL/h]=fog_collectio
     --map "ph=solution_ph@PH-02" --by AK $q
 for n in 03 04 05; do
     rating=9; [ $n = 05 ] && rating=10
-    testplan record observe $run --specimen ${S}$n --checkpoint "after 3 cycles and recovery" --rating $rating --by AK $q
+    testplan record observe $run --specimen ${S}$n --checkpoint "after 3 cycles and recovery" --rating $rating \
+        --function pass --by AK $q
 done
 testplan record finish $run --by AK --at 2027-01-21T08:00Z $q
 testplan record check $run --by JT $q
@@ -101,5 +107,18 @@ testplan record observe $run --sheet "$bench/after-aged1.toml" --by AK $q
 testplan record finish $run --by AK --at 2027-01-24T14:20Z $q
 testplan record check $run --by JT $q
 
+# 72 h immersion of S05 after ageing.
+run=water-8@aged-2
+testplan record start $run --operator JT --equipment PT-03 --equipment TT-07 "${amb[@]}" --state-ok --at 2027-01-25T08:10Z $q
+testplan record import $run "$bench/tank-aged2.csv" --tz Europe/London --time-column timestamp --skip-unmapped \
+    --map "depth_cm[cm]=lowest_point_depth@PT-03" --map "water_C[degC]=water_temperature@PT-03" \
+    --map "s1_C[degC]=specimen_temperature@TT-07#${S}05" --by JT $q
+testplan record observe $run --sheet "$bench/after-aged2.toml" --by JT $q
+testplan record finish $run --by JT --at 2027-01-28T08:30Z $q
+testplan record check $run --by MO $q
+
 testplan store check
 testplan record list
+
+# Judge every finished run from its data; water-8@aged-1 fails (exit 3 is expected here).
+testplan judge || [ $? -eq 3 ]

@@ -37,7 +37,7 @@ def test_demo_plan_reads_in_100_columns() -> None:
 
 
 @pytest.mark.slow
-def test_demo_bench_work_records_five_runs_and_checks_out(tmp_path: Path) -> None:
+def test_demo_bench_work_records_six_runs_judges_them_and_checks_out(tmp_path: Path) -> None:
     env = {**os.environ, "PATH": f"{Path(sys.executable).parent}{os.pathsep}{os.environ['PATH']}"}
     env.pop("TESTPLAN_DB", None)
     script = Path(__file__).with_name("record_demo.sh")
@@ -45,7 +45,7 @@ def test_demo_bench_work_records_five_runs_and_checks_out(tmp_path: Path) -> Non
     assert result.returncode == 0, result.stderr[-2000:]
     assert "Traceback" not in result.stderr
     lines = result.stdout.splitlines()
-    assert any(line.startswith("ok: ") and "6 raw files" in line for line in lines)
+    assert any(line.startswith("ok: ") and "7 raw files" in line for line in lines)
     states = dict(ln.split()[::3] for ln in lines if len(ln.split()) == 4 and "@" in ln)
     checked = sorted(run for run, state in states.items() if state == "checked")
     assert checked == [
@@ -53,12 +53,19 @@ def test_demo_bench_work_records_five_runs_and_checks_out(tmp_path: Path) -> Non
         "salt-mist@aged-1",
         "water-6@ip-verification-1",
         "water-8@aged-1",
+        "water-8@aged-2",
         "water-8@ip-verification-1",
     ]
+    # Judged from the data: the made-to-fail run fails and says why.
+    assert "water-8@aged-1: FAIL" in lines
+    assert "water-8@aged-2: PASS" in lines
+    assert any(ln.startswith("  FAIL   water-8.depth: 19") and "below the limit" in ln
+               for ln in lines)  # fmt: skip
+    assert "campaign: fail" in lines
     engine = sa.create_engine(f"sqlite:///{tmp_path / 'testplan.db'}")
     try:
         with engine.connect() as conn:
-            assert conn.execute(sa.text("SELECT count(*) FROM raw_file")).scalar() == 6
+            assert conn.execute(sa.text("SELECT count(*) FROM raw_file")).scalar() == 7
             # The made-to-fail run: the lowest point above 2053.7 mm for four minutes.
             shallow = conn.execute(sa.text(
                 "SELECT count(*) FROM sample s JOIN logger_channel c ON c.raw_file_id = "

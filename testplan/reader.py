@@ -45,6 +45,9 @@ SECTIONS: dict[str, dict[str, bool]] = {
         "client": True,
         "laboratory": True,
         "location": False,
+        "decision_rule": False,
+        "guard_factor": False,
+        "decision_rule_agreement": False,
     },
     "device": {
         "name": True,
@@ -296,7 +299,22 @@ def _read_info(r: _Reader) -> CampaignInfo:
         client=r.text(sec, "client", "campaign") or "",
         laboratory=r.text(sec, "laboratory", "campaign") or "",
         location=r.text(sec, "location", "campaign"),
+        decision_rule=r.choice(sec, "decision_rule", "campaign", ["simple", "guarded"], "simple"),
+        guard_factor=_guard_factor(r, sec),
+        decision_rule_agreement=r.text(sec, "decision_rule_agreement", "campaign"),
     )
+
+
+def _guard_factor(r: _Reader, sec: dict[str, Any]) -> float:
+    if "guard_factor" not in sec:
+        return 1.0
+    value = r.number(sec, "guard_factor", "campaign")
+    if not 0 <= value <= 3:
+        raise CampaignFileError(
+            f"expected a factor r from 0 to 3 (w = r x U), got {value:g}",
+            key="campaign.guard_factor",
+        )
+    return value
 
 
 def _read_device(r: _Reader) -> Device:

@@ -11,6 +11,7 @@ import typer
 from testplan import __version__
 from testplan.cli import equipment, people, record, store_cmd
 from testplan.cli.init_cmd import init_command
+from testplan.cli.judge_cmd import judge_command
 from testplan.cli.plan import PLAN_EPILOG, plan_command
 
 app = typer.Typer(
@@ -40,6 +41,7 @@ def _root(
 
 app.command("plan", epilog=PLAN_EPILOG)(plan_command)
 app.command("init")(init_command)
+app.command("judge")(judge_command)
 app.add_typer(record.app, name="record")
 app.add_typer(equipment.app, name="equipment")
 app.add_typer(people.app, name="people")

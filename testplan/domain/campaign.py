@@ -21,6 +21,9 @@ class CampaignInfo:
     client: str
     laboratory: str
     location: str | None = None
+    decision_rule: str = "simple"  # "simple" or "guarded" (ILAC-G8 guard band w = r x U)
+    guard_factor: float = 1.0
+    decision_rule_agreement: str | None = None
 
 
 @dataclass(frozen=True)

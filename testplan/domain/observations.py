@@ -13,6 +13,7 @@ medium = "water"                  # water or dust
 found = true
 where = "film of water inside the cable gland"
 live_parts = "clear"              # reached, clear or none inside
+harmful = false                   # the observer's call where "no harmful" is allowed
 
 [leak_test]
 start_pressure = "1200 mbar"      # absolute
@@ -22,6 +23,7 @@ start_temperature = "21.4 degC"
 end_temperature = "21.3 degC"
 barometric_pressure = "1012 mbar"
 dead_volume = "0.05 L"            # test circuit, added to the free volume
+gauge = "PG-01"                   # optional: its test_pressure calibration gives U
 
 [[photo]]
 file = "photos/s01-gland.jpg"
@@ -56,7 +58,18 @@ KINDS: dict[str, tuple[FieldSpec, ...]] = {
         FieldSpec("found", "bool", required=True),
         FieldSpec("where", "text"),
         FieldSpec("live_parts", "choice", choices=("reached", "clear", "none inside")),
+        FieldSpec("harmful", "bool"),
         FieldSpec("amount", "text"),
+    ),
+    "probe_entry": (
+        FieldSpec("found", "bool", required=True),
+        FieldSpec("probe", "text"),
+        FieldSpec("detail", "text"),
+    ),
+    "contact": (
+        FieldSpec("found", "bool", required=True),
+        FieldSpec("probe", "text"),
+        FieldSpec("detail", "text"),
     ),
     "mass": (
         FieldSpec("before", "mass", "g", required=True),
@@ -70,6 +83,7 @@ KINDS: dict[str, tuple[FieldSpec, ...]] = {
         FieldSpec("end_temperature", "temperature", "degC", required=True),
         FieldSpec("barometric_pressure", "pressure", "mbar", required=True),
         FieldSpec("dead_volume", "volume", "L", required=True),
+        FieldSpec("gauge", "text"),
     ),
     "function": (
         FieldSpec("result", "choice", required=True, choices=("pass", "fail")),
@@ -78,6 +92,7 @@ KINDS: dict[str, tuple[FieldSpec, ...]] = {
     "insulation": (
         FieldSpec("resistance", "resistance", "Mohm", required=True),
         FieldSpec("test_voltage", "voltage", "V"),
+        FieldSpec("meter", "text"),
     ),
     "corrosion": (
         FieldSpec("rating", "int", required=True, minimum=0, maximum=10),

@@ -29,6 +29,11 @@ def campaign_summary(c: Campaign) -> dict[str, Any]:
         "client": c.info.client,
         "laboratory": c.info.laboratory,
         "location": c.info.location,
+        "decision_rule": {
+            "rule": c.info.decision_rule,
+            "guard_factor": c.info.guard_factor,
+            "agreement": c.info.decision_rule_agreement,
+        },
         "device": {
             "name": d.name,
             "maker": d.maker,

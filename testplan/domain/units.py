@@ -52,6 +52,7 @@ KINDS: dict[str, Kind] = {
     "temperature_difference": Kind("temperature_difference", "[temperature]", "5 K"),
     "mass_concentration": Kind("mass_concentration", "[mass] / [length] ** 3", "2 kg/m^3"),
     "volume_flow": Kind("volume_flow", "[length] ** 3 / [time]", "100 L/min"),
+    "speed": Kind("speed", "[length] / [time]", "1 mm/min"),
     "mass": Kind("mass", "[mass]", "1.2 kg"),
     "voltage": Kind("voltage", "[length] ** 2 * [mass] / [current] / [time] ** 3", "500 V"),
     "count": Kind("count", "dimensionless", "1000 cycle"),

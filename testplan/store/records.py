@@ -981,6 +981,9 @@ def add_observations(
                     fix=_near(item.specimen, list(serials)),
                 )
             specimen_id = spec.id
+        for field_name in ("meter", "gauge"):
+            if item.data.get(field_name):
+                find_equipment(session, item.data[field_name], key=f"{item.kind}.{field_name}")
         attachment_id = None
         if item.photo is not None:
             attachment_id = _attach(session, item.photo_name or "photo", item.photo)

@@ -351,3 +351,50 @@ CORE_TABLES = (
     "deviation",
     "audit",
 )
+
+
+# --- judging (migration 0003) -----------------------------------------------------------
+
+
+class Judgement(SQLModel, table=True):
+    """One judging of a run: the rule, the tool, a hash of every input, the run's outcome."""
+
+    __tablename__ = "judgement"
+    id: uuid.UUID = Field(default_factory=_id, primary_key=True)
+    run_id: uuid.UUID = Field(foreign_key="run.id", index=True)
+    revision_id: uuid.UUID = Field(foreign_key="plan_revision.id")
+    rule: str = Field(max_length=16)
+    guard_factor: float
+    rule_agreement: str | None = None
+    outcome: str = Field(max_length=24)
+    interpretation_json: str | None = Field(default=None, sa_type=sa.Text)
+    tool_version: str
+    inputs_sha256: str = Field(max_length=64)
+    judged_by: str
+    judged_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
+
+
+class VerdictRecord(SQLModel, table=True):
+    """One criterion's verdict within a judgement."""
+
+    __tablename__ = "verdict"
+    id: uuid.UUID = Field(default_factory=_id, primary_key=True)
+    judgement_id: uuid.UUID = Field(foreign_key="judgement.id", index=True)
+    criterion_key: str = Field(max_length=128)
+    quantity: str
+    specimen_id: uuid.UUID | None = Field(default=None, foreign_key="specimen.id")
+    outcome: str = Field(max_length=24)
+    measured: float | None = None
+    unit: str | None = None
+    limit_min: float | None = None
+    limit_max: float | None = None
+    accept_min: float | None = None
+    accept_max: float | None = None
+    margin: float | None = None
+    uncertainty: float | None = None
+    coverage_k: float | None = None
+    window_start: dt.datetime | None = Field(default=None, sa_type=UTCDateTime)
+    window_end: dt.datetime | None = Field(default=None, sa_type=UTCDateTime)
+    detail: str = Field(sa_type=sa.Text)
+    flags_json: str = Field(sa_type=sa.Text)
+    inputs_sha256: str = Field(max_length=64)

@@ -77,7 +77,8 @@ def test_a_bad_campaign_file_stores_nothing(db_url: str, tmp_path: Path) -> None
         "bad.toml", SAMPLE.read_text().replace('height = "310 mm"', 'height = "310 s"')
     )
     line = bench.fail("init", str(bad))
-    assert line.startswith(f"error: {bad}:16: device.height: '310 s' is not a length")
+    number = bad.read_text().splitlines().index('height = "310 s"') + 1
+    assert line.startswith(f"error: {bad}:{number}: device.height: '310 s' is not a length")
     assert not (tmp_path / "lab.db").exists() or bench.sql("SELECT count(*) FROM campaign") == [
         (0,)
     ]

@@ -1,0 +1,455 @@
+"""Load a run's evidence for judging, keep each judgement, and roll verdicts up.
+
+A judgement is kept with a SHA-256 over every input it used (the criteria, the rule, the
+run's times, each logged channel's sample digest and calibration, each observation), so
+judging the same evidence again adds nothing, and any change shows as a new judgement.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import uuid
+from collections import defaultdict
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import sqlalchemy as sa
+from sqlmodel import Session, col, select
+
+from testplan import __version__
+from testplan.domain import judge as J
+from testplan.errors import RecordError
+from testplan.store import audit
+from testplan.store.records import (
+    calibrations_in_force,
+    find_campaign,
+    find_equipment,
+    find_run,
+    run_procedure,
+    run_specimens,
+)
+from testplan.store.tables import (
+    Calibration,
+    CampaignRecord,
+    Judgement,
+    LoggerChannel,
+    Observation,
+    PlanRevision,
+    RawFile,
+    RunRecord,
+    RunSpecimen,
+    SpecimenRecord,
+    VerdictRecord,
+)
+
+JUDGEABLE = ("finished", "checked")
+
+
+def _plan(session: Session, run: RunRecord) -> dict[str, Any]:
+    rev = session.get(PlanRevision, run.revision_id)
+    assert rev is not None
+    plan: dict[str, Any] = json.loads(rev.plan_json)
+    return plan
+
+
+def rule_of(plan: dict[str, Any]) -> J.Rule:
+    d = plan["campaign"].get("decision_rule") or {}
+    return J.Rule(d.get("rule", "simple"), float(d.get("guard_factor", 1.0)), d.get("agreement"))
+
+
+def _series(session: Session, run: RunRecord) -> list[J.Series]:
+    import numpy as np
+
+    out = []
+    raws = session.exec(
+        select(RawFile).where(RawFile.run_id == run.id).order_by(col(RawFile.imported_at))
+    ).all()
+    serials = {s.id: s.serial for s in run_specimens(session, run)}
+    conn = session.connection()
+    for raw in raws:
+        rows = conn.execute(
+            sa.text(
+                "SELECT channel, t_us, value FROM sample WHERE raw_file_id = :r ORDER BY seq"
+            ).bindparams(sa.bindparam("r", type_=sa.Uuid())),
+            {"r": raw.id},
+        ).all()
+        data = np.asarray(rows, dtype=np.float64).reshape(-1, 3)
+        ch = data[:, 0].astype(np.int64)
+        t = data[:, 1].astype(np.int64)  # microseconds since 1970 stay exact below 2**53
+        v = data[:, 2]
+        channels = session.exec(
+            select(LoggerChannel).where(LoggerChannel.raw_file_id == raw.id)
+        ).all()
+        for c in channels:
+            pick = ch == c.number
+            cal = session.get(Calibration, c.calibration_id) if c.calibration_id else None
+            value = v[pick] * (cal.gain if cal else 1.0) + (cal.offset if cal else 0.0)
+            cal_id = str(cal.id) if cal else "uncalibrated"
+            out.append(
+                J.Series(
+                    quantity=c.quantity,
+                    specimen=serials.get(c.specimen_id) if c.specimen_id else None,
+                    t_us=t[pick],
+                    value=value,
+                    unit=c.unit,
+                    uncertainty=cal.uncertainty if cal else None,
+                    coverage_k=cal.coverage_k if cal else None,
+                    range_min=cal.range_min if cal else None,
+                    range_max=cal.range_max if cal else None,
+                    source=f"samples:{raw.samples_sha256}:{c.number}:{c.quantity}:{cal_id}",
+                )
+            )
+    return out
+
+
+def _observations(session: Session, run: RunRecord) -> list[J.Obs]:
+    serials = {s.id: s.serial for s in run_specimens(session, run)}
+    out = []
+    rows = session.exec(
+        select(Observation)
+        .where(Observation.run_id == run.id)
+        .order_by(col(Observation.recorded_at))
+    ).all()
+    for o in rows:
+        data = json.loads(o.data_json)
+        u = k = None
+        tag, channel = {
+            "insulation": (data.get("meter"), "insulation_resistance"),
+            "leak_test": (data.get("gauge"), "test_pressure"),
+        }.get(o.kind, (None, ""))
+        cal_id = ""
+        if tag:
+            cal = calibrations_in_force(
+                session, find_equipment(session, tag), o.recorded_at.date()
+            ).get(channel)
+            if cal is not None and cal.due_on >= o.recorded_at.date():
+                u, k, cal_id = cal.uncertainty, cal.coverage_k, str(cal.id)
+        digest = hashlib.sha256(o.data_json.encode()).hexdigest()
+        out.append(
+            J.Obs(
+                kind=o.kind,
+                specimen=serials.get(o.specimen_id) if o.specimen_id else None,
+                data=data,
+                at=o.recorded_at,
+                source=f"observation:{o.id}:{digest}:{cal_id}",
+                uncertainty=u,
+                coverage_k=k,
+            )
+        )
+    return out
+
+
+def _later_ingress(session: Session, run: RunRecord) -> dict[str, list[tuple[str, bool]]]:
+    """Water runs after this one on the same specimens, and whether each found ingress."""
+    assert run.finished_at is not None
+    out: dict[str, list[tuple[str, bool]]] = defaultdict(list)
+    for spec in run_specimens(session, run):
+        later = session.exec(
+            select(RunRecord)
+            .join(RunSpecimen, col(RunSpecimen.run_id) == col(RunRecord.id))
+            .where(
+                RunSpecimen.specimen_id == spec.id,
+                col(RunRecord.procedure_key).startswith("water-"),
+                col(RunRecord.started_at) >= run.finished_at,
+            )
+            .order_by(col(RunRecord.started_at))
+        ).all()
+        for other in later:
+            obs = session.exec(
+                select(Observation)
+                .where(
+                    Observation.run_id == other.id,
+                    Observation.specimen_id == spec.id,
+                    Observation.kind == "ingress",
+                )
+                .order_by(col(Observation.recorded_at).desc())
+            ).first()
+            if obs is not None:
+                out[spec.serial].append((other.key, bool(json.loads(obs.data_json)["found"])))
+    return dict(out)
+
+
+def load_run(session: Session, run: RunRecord) -> J.RunData:
+    """Everything recorded for a finished run, in plan units, calibrations applied."""
+    assert run.started_at is not None and run.finished_at is not None
+    plan = _plan(session, run)
+    device = plan["campaign"].get("device", {})
+    return J.RunData(
+        key=run.key,
+        procedure=run_procedure(session, run),
+        specimens=[s.serial for s in run_specimens(session, run)],
+        started_at=run.started_at,
+        finished_at=run.finished_at,
+        series=_series(session, run),
+        observations=_observations(session, run),
+        later_ingress=_later_ingress(session, run),
+        free_volume_l=device.get("free_volume_l") or device.get("enclosure_volume_l"),
+    )
+
+
+def _hash(parts: Sequence[Any]) -> str:
+    return hashlib.sha256(audit.canonical(list(parts)).encode()).hexdigest()
+
+
+@dataclass
+class RunJudgement:
+    """A run judged: its verdicts, the run's outcome and any interpretation."""
+
+    run: str
+    procedure: str
+    leg: str
+    specimens: list[str]
+    rule: J.Rule
+    outcome: str
+    verdicts: list[J.Verdict]
+    inputs_sha256: str
+    new: bool
+    interpretation: dict[str, Any] | None = None
+    checked: bool = False
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "run": self.run,
+            "procedure": self.procedure,
+            "leg": self.leg,
+            "specimens": self.specimens,
+            "outcome": self.outcome,
+            "decision_rule": {
+                "rule": self.rule.name,
+                "guard_factor": self.rule.guard_factor,
+                "agreement": self.rule.agreement,
+                "text": self.rule.shown(),
+            },
+            "data_checked": self.checked,
+            "inputs_sha256": self.inputs_sha256,
+            "verdicts": [v.to_json() for v in self.verdicts],
+            "interpretation": self.interpretation,
+        }
+
+
+def interpret_endurance(data: J.RunData, verdicts: list[J.Verdict]) -> dict[str, Any] | None:
+    """Demonstrated reliability at the rated cycles from the cycles actually reached."""
+    from testplan.domain.stats import demonstrated_reliability
+
+    if data.procedure.get("family") != "endurance":
+        return None
+    params = data.procedure.get("parameters", {})
+    reached = next((v.measured for v in verdicts if v.quantity == "cycles_reached"), None)
+    if reached is None:
+        return None
+    fails = [o for o in data.observations if o.kind == "failure"]
+    failed_at = {o.specimen: float(o.data["cycles"]) for o in fails if o.specimen}
+    cycles = [min(failed_at.get(s, reached), reached) for s in data.specimens]
+    rated = float(params["rated_cycles"]["value"])
+    confidence = float(params["confidence"]["value"])
+    shape = float(params["weibull_shape"]["value"])
+    r = demonstrated_reliability(cycles, rated, confidence, shape, len(fails))
+    return {
+        "kind": "interpretation",
+        "what": "demonstrated reliability",
+        "reliability": r,
+        "confidence": confidence,
+        "rated_cycles": rated,
+        "weibull_shape": shape,
+        "cycles_per_specimen": cycles,
+        "failures": len(fails),
+        "text": (
+            f"Interpretation, not a measured result: {len(cycles)} specimen(s) reaching "
+            f"{', '.join(f'{c:.0f}' for c in cycles)} cycles with {len(fails)} failure(s) "
+            f"demonstrate a reliability of at least {r:.3f} at {rated:.0f} cycles with "
+            f"{confidence:.0%} confidence, assuming a Weibull shape of {shape:g} "
+            "(customer-supplied)."
+        ),
+    }
+
+
+def judge_one(session: Session, run: RunRecord, actor: str) -> RunJudgement:
+    """Judge a finished run and keep the judgement unless the same inputs were judged before."""
+    data = load_run(session, run)
+    plan = _plan(session, run)
+    rule = rule_of(plan)
+    verdicts = J.judge_run(data, rule)
+    for v in verdicts:
+        v.sources = sorted(set(v.sources))
+    base = [
+        run.key,
+        data.procedure.get("criteria"),
+        rule.name,
+        rule.guard_factor,
+        data.started_at,
+        data.finished_at,
+        __version__,
+    ]
+    inputs = _hash(base + sorted({s for v in verdicts for s in v.sources}))
+    outcome = J.worst([v.outcome for v in verdicts])
+    interpretation = interpret_endurance(data, verdicts)
+    last = session.exec(
+        select(Judgement)
+        .where(Judgement.run_id == run.id)
+        .order_by(col(Judgement.judged_at).desc())
+    ).first()
+    new = last is None or last.inputs_sha256 != inputs
+    if new:
+        j = Judgement(
+            run_id=run.id,
+            revision_id=run.revision_id,
+            rule=rule.name,
+            guard_factor=rule.guard_factor,
+            rule_agreement=rule.agreement,
+            outcome=outcome,
+            interpretation_json=audit.canonical(interpretation) if interpretation else None,
+            tool_version=__version__,
+            inputs_sha256=inputs,
+            judged_by=actor,
+        )
+        session.add(j)
+        session.flush()
+        serial_ids = {s.serial: s.id for s in run_specimens(session, run)}
+        for v in verdicts:
+            session.add(
+                VerdictRecord(
+                    judgement_id=j.id,
+                    criterion_key=v.criterion,
+                    quantity=v.quantity,
+                    specimen_id=serial_ids.get(v.specimen) if v.specimen else None,
+                    outcome=v.outcome,
+                    measured=v.measured,
+                    unit=v.unit,
+                    limit_min=v.limit_min,
+                    limit_max=v.limit_max,
+                    accept_min=v.accept_min,
+                    accept_max=v.accept_max,
+                    margin=v.margin,
+                    uncertainty=v.uncertainty,
+                    coverage_k=v.coverage_k,
+                    window_start=v.window_start,
+                    window_end=v.window_end,
+                    detail=v.detail,
+                    flags_json=audit.canonical(v.flags),
+                    inputs_sha256=_hash([v.criterion, rule.name, rule.guard_factor, *v.sources]),
+                )
+            )
+        session.flush()
+        audit.append(
+            session,
+            actor=actor,
+            action="run.judge",
+            entity="judgement",
+            entity_id=j.id,
+            campaign_id=run.campaign_id,
+            old={"judgement": str(last.id), "outcome": last.outcome} if last else None,
+            new={
+                "run": run.key,
+                "outcome": outcome,
+                "rule": rule.name,
+                "inputs_sha256": inputs,
+                "tool_version": __version__,
+            },
+        )
+    return RunJudgement(
+        run=run.key,
+        procedure=run.procedure_key,
+        leg=run.leg,
+        specimens=data.specimens,
+        rule=rule,
+        outcome=outcome,
+        verdicts=verdicts,
+        inputs_sha256=inputs,
+        new=new,
+        interpretation=interpretation,
+        checked=run.state == "checked",
+    )
+
+
+def judge_campaign(
+    session: Session, *, campaign: str | None, runs: Sequence[str], actor: str
+) -> tuple[CampaignRecord, list[RunJudgement]]:
+    """Judge the named runs, or every finished run of the campaign."""
+    camp = find_campaign(session, campaign)
+    if runs:
+        rows = [find_run(session, key, campaign=camp.reference) for key in runs]
+        for row in rows:
+            if row.state not in JUDGEABLE:
+                raise RecordError(
+                    f"cannot judge run {row.key}: it is {row.state}",
+                    key="RUN",
+                    fix="finish it first with `testplan record finish`",
+                )
+    else:
+        rows = list(
+            session.exec(
+                select(RunRecord)
+                .where(
+                    RunRecord.campaign_id == camp.id,
+                    col(RunRecord.state).in_(JUDGEABLE),
+                )
+                .order_by(col(RunRecord.started_at), col(RunRecord.key))
+            ).all()
+        )
+    return camp, [judge_one(session, row, actor) for row in rows]
+
+
+@dataclass
+class Rollup:
+    """Outcome per specimen, leg and campaign from each run's latest judgement."""
+
+    runs: dict[str, str] = field(default_factory=dict)
+    specimens: dict[str, str] = field(default_factory=dict)
+    legs: dict[str, str] = field(default_factory=dict)
+    campaign: str = J.PASS
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "runs": self.runs,
+            "specimens": self.specimens,
+            "legs": self.legs,
+            "campaign": self.campaign,
+        }
+
+
+def rollup(session: Session, campaign: CampaignRecord) -> Rollup:
+    """Roll the latest verdicts up: a specimen takes the worst verdict that applies to it
+    (its own, and its runs' run-wide ones); runs not yet judged count as ``not run``."""
+    out = Rollup()
+    per_specimen: dict[uuid.UUID, list[str]] = defaultdict(list)
+    runs = session.exec(
+        select(RunRecord)
+        .where(RunRecord.campaign_id == campaign.id, RunRecord.state != "withdrawn")
+        .order_by(col(RunRecord.planned_start), col(RunRecord.key))
+    ).all()
+    for run in runs:
+        members = [s.id for s in run_specimens(session, run)]
+        j = session.exec(
+            select(Judgement)
+            .where(Judgement.run_id == run.id)
+            .order_by(col(Judgement.judged_at).desc())
+        ).first()
+        if j is None:
+            out.runs[run.key] = J.NOT_RUN
+            for sid in members:
+                per_specimen[sid].append(J.NOT_RUN)
+            continue
+        out.runs[run.key] = j.outcome
+        verdicts = session.exec(
+            select(VerdictRecord).where(VerdictRecord.judgement_id == j.id)
+        ).all()
+        for v in verdicts:
+            for sid in [v.specimen_id] if v.specimen_id else members:
+                per_specimen[sid].append(v.outcome)
+    specimens = session.exec(
+        select(SpecimenRecord)
+        .where(SpecimenRecord.campaign_id == campaign.id)
+        .order_by(col(SpecimenRecord.serial))
+    ).all()
+    legs: dict[str, list[str]] = defaultdict(list)
+    for s in specimens:
+        if s.id not in per_specimen:
+            continue  # a control specimen: no tests to judge
+        outcome = J.worst(per_specimen[s.id])
+        out.specimens[s.serial] = outcome
+        legs[s.leg].append(outcome)
+    out.legs = {leg: J.worst(v) for leg, v in legs.items()}
+    out.campaign = J.worst(list(out.legs.values()))
+    return out

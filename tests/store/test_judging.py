@@ -1,0 +1,153 @@
+"""`testplan judge` on a real store: verdicts kept with their inputs, roll-up, exit codes."""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+import math
+
+import pytest
+from scipy.stats import chi2
+
+from .conftest import START, Bench
+
+RUN = "water-8@ip-verification-1"
+
+
+def tank_csv(bench: Bench, dip: bool) -> str:
+    """Minute readings from 16:05Z: lowered in 3 min, 2100 mm held, raised; water 12 degC."""
+    start = dt.datetime(2027, 1, 12, 16, 5, tzinfo=dt.UTC)
+    lines = ["time,depth,water"]
+    for m in range(4332):
+        depth = 2100.0
+        if m < 3:
+            depth = 700.0 * m
+        elif m >= 4329:
+            depth = 700.0 * (4331 - m)
+        elif dip and m in (600, 601):
+            depth = 2000.0
+        t = start + dt.timedelta(minutes=m)
+        lines.append(f"{t:%Y-%m-%dT%H:%M:%SZ},{depth},12.0")
+    return str(bench.write("tank.csv", "\n".join(lines) + "\n"))
+
+
+def record(bench: Bench, dip: bool) -> None:
+    bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
+    bench("record", "import", RUN, tank_csv(bench, dip), "--map",
+          "depth[mm]=lowest_point_depth@PT-03", "--map", "water[degC]=water_temperature@PT-03",
+          "--by", "AK", "--quiet")  # fmt: skip
+    for s in ("QC-2027-014-S01", "QC-2027-014-S02"):
+        bench("record", "observe", RUN, "--specimen", s, "--ingress", "water:none", "--function",
+              "pass", "--insulation", "2 Gohm", "--by", "AK", "--quiet")  # fmt: skip
+    bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T16:40Z", "--quiet")
+
+
+def test_a_failing_run_exits_3_and_says_why(bench: Bench) -> None:
+    record(bench, dip=True)
+    result = bench("judge", ok=False)
+    assert result.exit_code == 3
+    assert f"{RUN}: FAIL  (data not yet checked by a second person)" in result.stdout
+    assert (
+        "  FAIL   water-8.depth: 2000 mm against >= 2053.7 mm; below the limit for about 2 min "
+        "in the exposure, first at 2027-01-13 02:05:00Z; U = 4 mm (k = 2)"
+    ) in result.stdout
+    assert "decision rule: guarded acceptance, w = 1 x U (ILAC-G8); agreed: client letter " \
+           "HH-QA-0112 of 2027-01-04" in result.stdout  # fmt: skip
+    assert result.stderr.strip().endswith(f"error: 1 run(s) did not pass: {RUN}")
+
+
+def test_verdicts_keep_value_limit_margin_uncertainty_window_and_input_hash(bench: Bench) -> None:
+    record(bench, dip=True)
+    bench("judge", ok=False)
+    row = bench.sql(
+        "SELECT v.outcome, v.measured, v.limit_min, v.margin, v.uncertainty, v.coverage_k, "
+        "v.window_start, v.window_end, v.inputs_sha256, j.rule, j.guard_factor, j.tool_version, "
+        "j.rule_agreement FROM verdict v JOIN judgement j ON j.id = v.judgement_id "
+        "WHERE v.criterion_key = 'water-8.depth'"
+    )[0]
+    assert row[:6] == ("fail", 2000.0, 2053.697, pytest.approx(-53.697), 4.0, 2.0)
+    assert str(row[6]).startswith("2027-01-12 16:08:00") and str(row[7]).startswith(
+        "2027-01-15 16:13"
+    )
+    assert len(row[8]) == 64
+    assert row[9:] == ("guarded", 1.0, "0.1.0", "client letter HH-QA-0112 of 2027-01-04")
+    # Judged per specimen where the evidence is per specimen, run-wide where it is not.
+    per = bench.sql("SELECT count(*) FROM verdict WHERE criterion_key = 'water-8.ingress'")
+    assert per == [(2,)]
+
+
+def test_the_same_evidence_judged_again_adds_nothing_and_new_evidence_does(bench: Bench) -> None:
+    record(bench, dip=False)
+    bench("judge", ok=False)  # no leak test recorded yet: no data
+    bench("judge", ok=False)
+    assert bench.sql("SELECT count(*) FROM judgement") == [(1,)]
+    sheet = bench.write("leak.toml", """\
+[[leak_test]]
+specimen = "QC-2027-014-S01"
+start_pressure = "1200.00 mbar"
+end_pressure = "1199.80 mbar"
+duration = "10 min"
+start_temperature = "21.4 degC"
+end_temperature = "21.4 degC"
+barometric_pressure = "1012 mbar"
+dead_volume = "45 mL"
+""")  # fmt: skip
+    bench("record", "observe", RUN, "--sheet", str(sheet), "--by", "AK", "--quiet")
+    bench("judge", ok=False)
+    assert bench.sql("SELECT count(*) FROM judgement") == [(2,)]
+    actions = [a for (a,) in bench.sql("SELECT action FROM audit WHERE action = 'run.judge'")]
+    assert actions == ["run.judge", "run.judge"]
+
+
+def test_json_output_and_roll_up(bench: Bench) -> None:
+    record(bench, dip=True)
+    result = bench("judge", "--json", ok=False)
+    data = json.loads(result.stdout)
+    (run,) = data["runs"]
+    assert run["outcome"] == "fail" and run["decision_rule"]["rule"] == "guarded"
+    depth = next(v for v in run["verdicts"] if v["criterion"] == "water-8.depth")
+    assert depth["limits"] == {"min": 2053.697, "max": None}
+    assert depth["acceptance"]["min"] == pytest.approx(2057.697)
+    roll = data["rollup"]
+    assert roll["runs"][RUN] == "fail"
+    assert roll["runs"]["dust-6@ip-verification-1"] == "not run"
+    assert roll["specimens"]["QC-2027-014-S01"] == "fail"
+    assert roll["legs"] == {"ip-verification": "fail", "aged": "not run"}
+    assert roll["campaign"] == "fail"
+
+
+def test_only_finished_runs_are_judged(bench: Bench) -> None:
+    bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
+    assert bench.fail("judge", RUN) == (
+        f"error: RUN: cannot judge run {RUN}: it is running (finish it first with "
+        "`testplan record finish`)"
+    )
+
+
+def test_endurance_reliability_is_an_interpretation(bench: Bench) -> None:
+    run = "endurance-mode-selector-knob@aged-1"
+    bench("equipment", "add", "TQ-11", "--description", "rig", "--quiet")
+    bench("equipment", "calibrate", "TQ-11", "--channel", "cycle_count", "--certificate", "C",
+          "--provider", "P", "--calibrated", "2026-08-10", "--due", "2027-08-10",
+          "--uncertainty", "0", "--k", "1", "--quiet")  # fmt: skip
+    start = [a if a != "PT-03" else "TQ-11" for a in START]
+    bench("record", "start", run, *start, "--at", "2027-01-12T11:00Z", "--quiet")
+    t0 = dt.datetime(2027, 1, 12, 11, tzinfo=dt.UTC)
+    rows = ["time,cycles"] + [
+        f"{t0 + dt.timedelta(minutes=c / 10):%Y-%m-%dT%H:%M:%SZ},{c}"
+        for c in range(0, 54_001, 1000)
+    ]
+    path = bench.write("rig.csv", "\n".join(rows) + "\n")
+    bench("record", "import", run, str(path), "--map", "cycles[cycle]=cycle_count@TQ-11",
+          "--by", "AK", "--quiet")  # fmt: skip
+    bench("record", "finish", run, "--by", "AK", "--at", "2027-01-16T05:05Z", "--quiet")
+    data = json.loads(bench("judge", run, "--json", ok=False).stdout)
+    interpretation = data["runs"][0]["interpretation"]
+    assert interpretation["kind"] == "interpretation"
+    assert interpretation["text"].startswith("Interpretation, not a measured result: ")
+    # Three specimens reaching 54 000 cycles, none failed, beta = 2, rated 20 000 cycles:
+    # R = exp(-chi2(0.90; 2) / (2 x 3 x (54000/20000)^2)) = 0.90007.
+    # source: scipy.stats.chi2
+    expected = math.exp(-chi2.ppf(0.90, 2) / (2 * 3 * 2.7**2))
+    assert interpretation["reliability"] == pytest.approx(expected, rel=1e-9)
+    assert expected == pytest.approx(0.90007, abs=1e-5)
