@@ -22,6 +22,8 @@ testplan people add RP --name "Rita Pereira" --role preparer --by MO $q
 testplan people add LV --name "Lars Vik" --role reviewer --by MO $q
 
 testplan init "$here/flood-gauge-node.toml" --by AK $q
+testplan record receive ${S}01 ${S}02 ${S}03 ${S}04 ${S}05 ${S}06 --on 2027-01-06 \
+    --condition "new, in sealed cartons, no visible damage; cable tails 2 m" --by AK $q
 
 # Equipment and calibrations (values in each channel's plan unit unless a unit is given).
 cal() { testplan equipment calibrate "$@" --provider "Vale Calibration Ltd" --by AK $q; }
@@ -58,7 +60,7 @@ testplan record start $run --operator AK --equipment FM-02 "${amb[@]}" --state-o
 testplan record import $run "$bench/jet-ip1.csv" --map "Q1[L/min]=flow@FM-02" --map "P1[bar]=nozzle_pressure@FM-02" --by AK $q
 testplan record observe $run --sheet "$bench/after-jets.toml" --by AK $q
 testplan record finish $run --by AK --at 2027-01-12T08:09Z $q
-testplan record check $run --by MO $q
+testplan record check $run --by MO --at 2027-01-12T11:30Z $q
 
 # 72 h immersion at 2 m of S01 and S02.
 run=water-8@ip-verification-1
@@ -69,7 +71,7 @@ testplan record import $run "$bench/tank-ip1.csv" --tz Europe/London --time-colu
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}01" --map "s2_C[degC]=specimen_temperature@TT-07#${S}02" --by AK $q
 testplan record observe $run --sheet "$bench/after-ip1.toml" --by AK $q
 testplan record finish $run --by AK --at 2027-01-15T16:20Z $q
-testplan record check $run --by MO $q
+testplan record check $run --by MO --at 2027-01-18T09:00Z $q
 
 # Mode-selector knob endurance on S03-S05 (three rig stations).
 run=endurance-mode-selector-knob@aged-1
@@ -79,7 +81,7 @@ testplan record import $run "$bench/rig-knob.csv" --map "cycles[cycle]=cycle_cou
     --map "tq_st3[N*mm]=torque@TQ-11#${S}05" --by JT $q
 testplan record observe $run --note "no failures; detents crisp on all three at 54 000 cycles" --by JT $q
 testplan record finish $run --by JT --at 2027-01-16T05:05Z $q
-testplan record check $run --by MO $q
+testplan record check $run --by MO --at 2027-01-18T10:00Z $q
 
 # Salt mist, IEC 60068-2-52 method 2, on S03-S05.
 run=salt-mist@aged-1
@@ -95,7 +97,7 @@ for n in 03 04 05; do
         --function pass --by AK $q
 done
 testplan record finish $run --by AK --at 2027-01-21T08:00Z $q
-testplan record check $run --by JT $q
+testplan record check $run --by JT --at 2027-01-21T15:00Z $q
 
 # 72 h immersion of S03 and S04 after ageing: the tank is topped up at hour 30.
 run=water-8@aged-1
@@ -105,7 +107,7 @@ testplan record import $run "$bench/tank-aged1.csv" --tz Europe/London --time-co
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}03" --map "s2_C[degC]=specimen_temperature@TT-07#${S}04" --by AK $q
 testplan record observe $run --sheet "$bench/after-aged1.toml" --by AK $q
 testplan record finish $run --by AK --at 2027-01-24T14:20Z $q
-testplan record check $run --by JT $q
+testplan record check $run --by JT --at 2027-01-25T09:00Z $q
 
 # 72 h immersion of S05 after ageing.
 run=water-8@aged-2
@@ -115,10 +117,13 @@ testplan record import $run "$bench/tank-aged2.csv" --tz Europe/London --time-co
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}05" --by JT $q
 testplan record observe $run --sheet "$bench/after-aged2.toml" --by JT $q
 testplan record finish $run --by JT --at 2027-01-28T08:30Z $q
-testplan record check $run --by MO $q
+testplan record check $run --by MO --at 2027-01-28T11:00Z $q
 
 testplan store check
 testplan record list
 
 # Judge every finished run from its data; water-8@aged-1 fails (exit 3 is expected here).
 testplan judge || [ $? -eq 3 ]
+
+# The test report (a draft until it is signed off).
+testplan report QC-2027-014 -o "$out/report.pdf" --issue-date 2027-02-01

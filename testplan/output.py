@@ -21,6 +21,9 @@ def write_atomically(path: str | Path, data: bytes) -> None:
     except OSError as err:
         raise TestplanError(f"cannot write here: {err.strerror}", file=path) from err
     try:
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; give the usual file mode
         with os.fdopen(fd, "wb") as handle:
             handle.write(data)
             handle.flush()

@@ -13,6 +13,7 @@ from testplan.cli import equipment, people, record, store_cmd
 from testplan.cli.init_cmd import init_command
 from testplan.cli.judge_cmd import judge_command
 from testplan.cli.plan import PLAN_EPILOG, plan_command
+from testplan.cli.report_cmd import report_command
 
 app = typer.Typer(
     name="testplan",
@@ -42,6 +43,7 @@ def _root(
 app.command("plan", epilog=PLAN_EPILOG)(plan_command)
 app.command("init")(init_command)
 app.command("judge")(judge_command)
+app.command("report")(report_command)
 app.add_typer(record.app, name="record")
 app.add_typer(equipment.app, name="equipment")
 app.add_typer(people.app, name="people")

@@ -91,6 +91,38 @@ def _state_notes(items: list[str]) -> tuple[tuple[int, str], ...]:
     return tuple(out)
 
 
+@app.command("receive")
+@reports_errors
+def receive_command(
+    serials: Annotated[list[str], typer.Argument(help="Specimen serials.", show_default=False)],
+    on: Annotated[str, typer.Option("--on", help="Date of receipt, ISO.")],
+    condition: Annotated[str, typer.Option("--condition", help="Condition on receipt.")],
+    by: ByOption,
+    campaign: CampaignOption = None,
+    db: DbOption = None,
+    quiet: QuietOption = False,
+) -> None:
+    """Record the date of receipt and the condition of specimens as received.
+
+    Example: testplan record receive QC-2027-014-S01 QC-2027-014-S02 --on 2027-01-06 --condition "new, sealed in carton" --by AK
+    """
+    from testplan.cli.common import parse_date
+    from testplan.store import records
+
+    day = parse_date(on, "--on")
+    store = open_for_writing(db, quiet=quiet)
+
+    def unit(session: Session) -> int:
+        return len(
+            records.receive_specimens(
+                session, campaign=campaign, serials=serials, on=day, condition=condition, by=by
+            )
+        )
+
+    n = store.write(unit)
+    typer.echo(f"{n} specimen(s) received on {day}")
+
+
 @app.command("start")
 @reports_errors
 def start_command(
@@ -132,6 +164,10 @@ def start_command(
         str | None,
         typer.Option("--approved-by", help="Initials of the approver allowing the deviation."),
     ] = None,
+    external_provider: Annotated[
+        str | None,
+        typer.Option("--external-provider", help="Laboratory that ran it, if not this one."),
+    ] = None,
     campaign: CampaignOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
@@ -159,6 +195,7 @@ def start_command(
         deviation=deviation,
         deviation_reason=deviation_reason,
         deviation_approver=approved_by,
+        external_provider=external_provider,
     )
     store = open_for_writing(db, quiet=quiet)
 
@@ -495,6 +532,9 @@ def check_command(
     run: RunArg,
     by: ByOption,
     note: Annotated[str | None, typer.Option("--note")] = None,
+    at: Annotated[
+        str | None, typer.Option("--at", help="When checked, with zone (default: now).")
+    ] = None,
     campaign: CampaignOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
@@ -505,11 +545,12 @@ def check_command(
     """
     from testplan.store import records
 
+    when = parse_at(at)
     store = open_for_writing(db, quiet=quiet)
 
     def unit(session: Session) -> None:
         row = records.find_run(session, run, campaign=campaign)
-        records.check_run(session, run=row, by=by, note=note)
+        records.check_run(session, run=row, by=by, note=note, at=when)
 
     store.write(unit)
     typer.echo(f"{run}: data checked by {by}")

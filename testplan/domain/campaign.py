@@ -21,6 +21,8 @@ class CampaignInfo:
     client: str
     laboratory: str
     location: str | None = None
+    laboratory_address: str | None = None
+    client_contact: str | None = None
     decision_rule: str = "simple"  # "simple" or "guarded" (ILAC-G8 guard band w = r x U)
     guard_factor: float = 1.0
     decision_rule_agreement: str | None = None

@@ -289,6 +289,15 @@ class Criterion:
             c.get("text"),
         )
 
+    def shown_limits(self) -> str:
+        """The limits as read: '>= 2053.7 mm', '<= 5 K', '1 to 2 mL/h'."""
+        lo, hi = self.limits()
+        if hi is None:
+            return f">= {fmt(lo, self.unit)}"
+        if lo is None:
+            return f"<= {fmt(hi, self.unit)}"
+        return f"{fmt(lo)} to {fmt(hi, self.unit)}"
+
     def limits(self) -> tuple[float | None, float | None]:
         if self.comparison == ">=":
             return self.min, None
@@ -325,12 +334,7 @@ def _measured(
         outcome, a_lo, a_hi, margin = decide(value, lo, hi, None, Rule("simple"))
     else:
         outcome, a_lo, a_hi, margin = decide(value, lo, hi, u, rule)
-    lim = (
-        f">= {fmt(lo, c.unit)}"
-        if hi is None
-        else (f"<= {fmt(hi, c.unit)}" if lo is None else f"{fmt(lo)} to {fmt(hi, c.unit)}")
-    )
-    text = f"{fmt(value, c.unit)} against {lim}"
+    text = f"{fmt(value, c.unit)} against {c.shown_limits()}"
     if detail:
         text += f"; {detail}"
     return _verdict(
@@ -394,7 +398,7 @@ def _in_run(run: RunData, s: Series) -> npt.NDArray[np.bool_]:
 # --- logged conditions -------------------------------------------------------------------
 
 
-def _exposure(s: Series, lo: float) -> tuple[int, int] | None:
+def exposure(s: Series, lo: float) -> tuple[int, int] | None:
     """First and last index at or beyond ``lo``: the exposure a '>=' condition is judged on."""
     import numpy as np
 
@@ -417,7 +421,7 @@ def condition(c: Criterion, run: RunData, rule: Rule) -> list[Verdict]:
         flags: list[str] = []
         src = [s.source]
         if c.when == "whole_run" and c.comparison == ">=" and lo is not None:
-            span = _exposure(s, lo)
+            span = exposure(s, lo)
             if span is None:
                 deepest = float(s.value.max())
                 out.append(
@@ -543,7 +547,7 @@ def water_specimen_difference(c: Criterion, run: RunData, rule: Rule) -> list[Ve
     depth = _series(run, "lowest_point_depth") or _series(run, "highest_point_depth")
     if depth:
         lo = _depth_limit(run)
-        span = _exposure(depth[0], lo) if lo is not None else None
+        span = exposure(depth[0], lo) if lo is not None else None
         if span is not None:
             start = float(depth[0].t_us[span[0]])
     out = []

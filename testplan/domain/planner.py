@@ -29,6 +29,8 @@ def campaign_summary(c: Campaign) -> dict[str, Any]:
         "client": c.info.client,
         "laboratory": c.info.laboratory,
         "location": c.info.location,
+        "laboratory_address": c.info.laboratory_address,
+        "client_contact": c.info.client_contact,
         "decision_rule": {
             "rule": c.info.decision_rule,
             "guard_factor": c.info.guard_factor,

@@ -630,6 +630,7 @@ class StartSheet:
     deviation: str | None = None
     deviation_reason: str | None = None
     deviation_approver: str | None = None
+    external_provider: str | None = None
 
 
 def start_run(session: Session, *, run: RunRecord, sheet: StartSheet) -> list[str]:
@@ -701,6 +702,7 @@ def start_run(session: Session, *, run: RunRecord, sheet: StartSheet) -> list[st
     run.ambient_humidity_pct = sheet.ambient_humidity_pct
     run.ambient_pressure_hpa = sheet.ambient_pressure_hpa
     run.preconditioning = sheet.preconditioning
+    run.external_provider = sheet.external_provider
     run.specimen_state_json = audit.canonical(
         [
             {"item": text, "as_required": (i + 1) not in notes, "note": notes.get(i + 1)}
@@ -729,6 +731,7 @@ def start_run(session: Session, *, run: RunRecord, sheet: StartSheet) -> list[st
                 "ambient_pressure_hpa",
                 "preconditioning",
                 "specimen_state_json",
+                "external_provider",
             ),
             "calibrations": [str(c.id) for _, c in used],
         },
@@ -811,7 +814,14 @@ def finish_run(
     return run
 
 
-def check_run(session: Session, *, run: RunRecord, by: str, note: str | None) -> RunRecord:
+def check_run(
+    session: Session,
+    *,
+    run: RunRecord,
+    by: str,
+    note: str | None,
+    at: dt.datetime | None = None,
+) -> RunRecord:
     """The data check by a second authorised person (not the operator)."""
     _state(run, ("finished",), "check")
     checker = require_role(session, by, "checker")
@@ -820,10 +830,18 @@ def check_run(session: Session, *, run: RunRecord, by: str, note: str | None) ->
             f"{checker.initials} ran this run; the data check needs a second person",
             key="--by",
         )
+    checked = at or utc_now()
+    assert run.finished_at is not None
+    if at is not None and checked < run.finished_at:
+        raise RecordError(
+            f"check time {checked.isoformat()} is before the run finished "
+            f"({run.finished_at.isoformat()})",
+            key="--at",
+        )
     run.state, run.checker_id, run.checked_at, run.check_note = (
         "checked",
         checker.id,
-        utc_now(),
+        checked,
         note,
     )
     session.add(run)
@@ -838,6 +856,50 @@ def check_run(session: Session, *, run: RunRecord, by: str, note: str | None) ->
         new=audit.values_of(run, "state", "checked_at", "check_note"),
     )
     return run
+
+
+def receive_specimens(
+    session: Session,
+    *,
+    campaign: str | None,
+    serials: Sequence[str],
+    on: dt.date,
+    condition: str,
+    by: str,
+) -> list[SpecimenRecord]:
+    """Record the date of receipt and the condition on receipt of specimens."""
+    camp = find_campaign(session, campaign)
+    person = find_person(session, by)
+    known = {
+        s.serial: s
+        for s in session.exec(
+            select(SpecimenRecord).where(SpecimenRecord.campaign_id == camp.id)
+        ).all()
+    }
+    out = []
+    for serial in serials:
+        spec = known.get(serial)
+        if spec is None:
+            raise RecordError(
+                f"no specimen {serial!r} in campaign {camp.reference}",
+                key="SERIAL",
+                fix=_near(serial, list(known)),
+            )
+        old = audit.values_of(spec, "received_on", "receipt_condition")
+        spec.received_on, spec.receipt_condition = on, condition
+        session.add(spec)
+        audit.append(
+            session,
+            actor=person.initials,
+            action="specimen.receive",
+            entity="specimen",
+            entity_id=spec.id,
+            campaign_id=camp.id,
+            old=old,
+            new=audit.values_of(spec, "received_on", "receipt_condition"),
+        )
+        out.append(spec)
+    return out
 
 
 # --- logger data ------------------------------------------------------------------------

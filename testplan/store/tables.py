@@ -203,6 +203,7 @@ class RunRecord(SQLModel, table=True):
     checker_id: uuid.UUID | None = Field(default=None, foreign_key="person.id")
     checked_at: dt.datetime | None = Field(default=None, sa_type=UTCDateTime)
     check_note: str | None = None
+    external_provider: str | None = None
 
 
 class RunSpecimen(SQLModel, table=True):

@@ -1,0 +1,60 @@
+"""``testplan report``: the campaign's test report as a PDF."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from testplan.cli.common import DbOption, QuietOption, open_for_reading, parse_date, say
+from testplan.cli.errors import reports_errors
+from testplan.errors import TestplanError
+
+
+@reports_errors
+def report_command(
+    campaign: Annotated[str, typer.Argument(help="Campaign reference, e.g. QC-2027-014.")],
+    output: Annotated[Path, typer.Option("--output", "-o", help="PDF file to write.")],
+    paper: Annotated[str, typer.Option("--paper", help="a4 or letter.")] = "a4",
+    issue_date: Annotated[
+        str | None, typer.Option("--issue-date", help="Date of issue, ISO (default: today).")
+    ] = None,
+    html: Annotated[
+        Path | None, typer.Option("--html", help="Also write the HTML that was printed.")
+    ] = None,
+    templates: Annotated[
+        Path | None, typer.Option("--templates", help="Folder of templates overriding ours.")
+    ] = None,
+    db: DbOption = None,
+    quiet: QuietOption = False,
+) -> None:
+    """Render the campaign's test report as a PDF (A4 or letter).
+
+    The PDF is written to a temporary file and renamed, so a half-written report never
+    sits under the final name.
+
+    Example: testplan report QC-2027-014 -o report.pdf
+    """
+    import datetime as dt
+
+    from testplan.output import write_atomically
+    from testplan.report.context import build
+    from testplan.report.pdf import report_html, report_pdf
+    from testplan.store.reporting import load_report
+
+    sizes = {"a4": "A4", "letter": "letter"}
+    if paper.lower() not in sizes:
+        raise TestplanError(f"unknown paper {paper!r}", key="--paper", fix="a4 or letter")
+    if output.suffix.lower() != ".pdf":
+        raise TestplanError("the report file must end in .pdf", file=output, key="--output")
+    day = parse_date(issue_date, "--issue-date") if issue_date else dt.datetime.now(dt.UTC).date()
+    store = open_for_reading(db)
+    with store.reading() as session:
+        data = load_report(session, campaign)
+    ctx = build(data, issue_date=day, paper=sizes[paper.lower()])
+    if html is not None:
+        write_atomically(html, report_html(ctx, templates).encode())
+    write_atomically(output, report_pdf(ctx, templates))
+    say(f"{ctx.figure_count} figure(s), {len(ctx.runs)} run section(s)", quiet=quiet)
+    typer.echo(f"wrote {output}")

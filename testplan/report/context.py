@@ -1,0 +1,416 @@
+"""The report's content as one typed context: everything the template prints, already
+worded and formatted, so the template only lays it out.
+
+The checklist is ISO/IEC 17025:2017 cl. 7.8.2.1 (a to p) with 7.8.2.2 (customer-supplied
+information), 7.8.3.1 (conditions, uncertainty, conformity), 7.8.6 (decision rule) and
+7.8.7 (opinions and interpretations).
+"""
+
+from __future__ import annotations
+
+import base64
+import datetime as dt
+import json
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any
+
+from testplan import __version__
+from testplan.domain import judge as J
+
+if TYPE_CHECKING:  # pragma: no cover
+    from testplan.store.reporting import ReportData, RunRecordData
+
+RESULTS_ONLY = (
+    "The results in this report relate only to the items tested, as received. The items "
+    "were supplied by the client; the laboratory did not sample them."
+)
+NOT_IN_PART = (
+    "This report shall not be reproduced except in full without the written approval of the "
+    "laboratory."
+)
+CUSTOMER_DATA = (
+    "Information marked 'supplied by the client' (geometry, declared depth and duration, "
+    "reliability targets, Weibull shape, friction coefficients and the like) was provided by "
+    "the client. The laboratory is not responsible for it; where it affects the validity of "
+    "the results, the results apply to the values as supplied."
+)
+INTERPRETATIONS = (
+    "Statements marked 'Interpretation' are opinions of the laboratory drawn from the results "
+    "(such as a demonstrated reliability); they are not measured results."
+)
+READER_GUIDANCE = (
+    "For anyone reusing the methods described here: the current edition of the governing "
+    "standard (with its amendments), the product standard, local codes and accredited or "
+    "licensed practice take precedence over any value or wording here. The summaries of "
+    "methods in this report describe what was done; they do not replace the standards."
+)
+OUTCOME_TEXT = {
+    J.PASS: "pass",
+    J.COND_PASS: "conditional pass",
+    J.COND_FAIL: "conditional fail",
+    J.FAIL: "fail",
+    J.NO_DATA: "no data",
+    J.NOT_RUN: "not run",
+}
+
+
+@dataclass
+class Row:
+    cells: list[str]
+    outcome: str | None = None
+
+
+@dataclass
+class Figure:
+    number: int
+    caption: str
+    svg: str
+
+
+@dataclass
+class Photo:
+    number: int
+    caption: str
+    data_uri: str
+    sha256: str
+
+
+@dataclass
+class RunSection:
+    key: str
+    heading: str
+    method: str
+    outcome: str
+    facts: list[tuple[str, str]]
+    checklist: list[tuple[str, str]]
+    deviations: list[Row]
+    equipment: list[Row]
+    files: list[Row]
+    verdicts: list[Row]
+    interpretation: str | None
+    figures: list[Figure]
+    photos: list[Photo]
+    notes: list[str]
+
+
+@dataclass
+class ReportContext:
+    title: str
+    report_number: str
+    revision: int
+    issue_date: str
+    draft: bool
+    paper: str
+    laboratory: str
+    laboratory_address: str | None
+    location: str | None
+    client: str
+    client_contact: str | None
+    item: list[tuple[str, str]]
+    specimens: list[Row]
+    test_dates: str
+    decision_rule: str
+    summary_legs: list[Row]
+    summary_specimens: list[Row]
+    summary_runs: list[Row]
+    campaign_outcome: str
+    runs: list[RunSection]
+    standards: list[Row]
+    customer_data: list[Row]
+    cautions: list[tuple[str, list[str]]]
+    external: list[str]
+    statements: list[str]
+    reader_guidance: str
+    calendar_svg: str | None
+    signatures: list[Row]
+    tool_version: str = __version__
+    manifest_root: str | None = None
+    figure_count: int = 0
+    notes: list[str] = field(default_factory=list)
+
+
+def _date(t: dt.datetime | dt.date | None) -> str:
+    if t is None:
+        return "-"
+    if isinstance(t, dt.datetime):
+        return t.astimezone(dt.UTC).strftime("%Y-%m-%d %H:%M UTC")
+    return t.isoformat()
+
+
+def _param(d: dict[str, Any]) -> str:
+    unit = f" {d['unit']}" if d.get("unit") else ""
+    if "value" in d:
+        core = f"{d['value']}{unit}"
+    elif "min" in d and "max" in d:
+        core = f"{d['min']} to {d['max']}{unit}"
+    else:
+        core = ""
+    if d.get("text"):
+        core = f"{core}; {d['text']}" if core else d["text"]
+    return core
+
+
+def _method(proc: dict[str, Any]) -> str:
+    std = proc["standard"]
+    return f"{std['name']}:{std['edition']}" + (f", cl. {proc['clause']}" if proc["clause"] else "")
+
+
+def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
+    from testplan.report.plots import run_figures
+
+    run, proc = r.run, r.procedure
+    outcome = (
+        r.judgement.outcome
+        if r.judgement
+        else (J.NOT_RUN if run.state not in ("finished", "checked") else J.NO_DATA)
+    )
+    ambient = "-"
+    if run.ambient_temperature_c is not None:
+        ambient = (
+            f"{run.ambient_temperature_c:g} degC, {run.ambient_humidity_pct:g} %RH, "
+            f"{run.ambient_pressure_hpa:g} hPa at the start"
+        )
+    facts = [
+        ("Specimens", ", ".join(r.specimens)),
+        ("Plan revision", str(r.revision)),
+        ("Facility", run.facility or "-"),
+        ("Started / finished", f"{_date(run.started_at)} / {_date(run.finished_at)}"),
+        ("Operator", f"{r.operator.name} ({r.operator.initials})" if r.operator else "-"),
+        (
+            "Data checked by",
+            f"{r.checker.name} ({r.checker.initials}), {_date(run.checked_at)}"
+            if r.checker
+            else "not yet checked",
+        ),
+        ("Lab ambient", ambient),
+        ("Pre-conditioning", run.preconditioning or "-"),
+    ]
+    if run.external_provider:
+        facts.append(("Carried out by", f"{run.external_provider} (external provider)"))
+    checklist = []
+    for item in json.loads(run.specimen_state_json or "[]"):
+        status = "as required" if item["as_required"] else f"differs: {item['note']}"
+        checklist.append((item["item"], status))
+    deviations = [
+        Row([d.description, d.reason, f"{p.name} ({p.initials})", _date(d.recorded_at)])
+        for d, p in r.deviations
+    ]
+    finished = run.finished_at.date() if run.finished_at else None
+    equipment = []
+    for e, c in r.equipment:
+        valid = finished is None or c.due_on >= finished
+        rng = (
+            f"{J.fmt(c.range_min)} to {J.fmt(c.range_max, c.unit)}"
+            if c.range_min is not None and c.range_max is not None
+            else "-"
+        )
+        equipment.append(
+            Row(
+                [
+                    f"{e.tag}: {e.description}" + (f" (s/n {e.serial})" if e.serial else ""),
+                    c.channel,
+                    f"{c.certificate}, {c.provider}",
+                    f"{c.calibrated_on} to {c.due_on}: "
+                    + ("valid for the run" if valid else "EXPIRED"),
+                    f"{J.fmt(c.uncertainty, c.unit)} (k = {c.coverage_k:g})",
+                    rng,
+                ]
+            )
+        )
+    files = [
+        Row([f.name, f.sha256, str(f.samples), f"{_date(f.first_at)} to {_date(f.last_at)}"])
+        for f in r.raw_files
+    ]
+    verdicts = []
+    for v, serial in r.verdicts:
+        u = f"{J.fmt(v.uncertainty, v.unit)} (k = {v.coverage_k:g})" if v.uncertainty else "-"
+        lim = J.Criterion(v.criterion_key, v.quantity, "", "", v.unit, v.limit_min, v.limit_max)
+        limit = "-" if v.limit_min is None and v.limit_max is None else _limit(lim)
+        verdicts.append(
+            Row(
+                [
+                    v.criterion_key.split(".", 1)[-1],
+                    serial or "all",
+                    J.fmt(v.measured, v.unit),
+                    limit,
+                    u,
+                    J.fmt(v.margin),
+                    OUTCOME_TEXT[v.outcome],
+                    _basis(v.detail),
+                ],
+                outcome=v.outcome,
+            )
+        )
+    interpretation = None
+    if r.judgement and r.judgement.interpretation_json:
+        interpretation = json.loads(r.judgement.interpretation_json)["text"]
+    figures = []
+    if r.evidence is not None:
+        for i, f in enumerate(run_figures(r.evidence)):
+            figures.append(Figure(figure_no + i, f.caption, f.svg))
+    photos = []
+    for i, (o, a, serial) in enumerate(r.photos):
+        data = json.loads(o.data_json)
+        caption = data.get("caption") or a.name
+        where = ", ".join(x for x in (serial, o.checkpoint) if x)
+        photos.append(
+            Photo(
+                photo_no + i,
+                f"{caption}" + (f" ({where})" if where else ""),
+                f"data:{a.media_type};base64,{base64.b64encode(a.content).decode()}",
+                a.sha256,
+            )
+        )
+    notes = []
+    if r.judgement is None and run.state in ("finished", "checked"):
+        notes.append("Not yet judged: run `testplan judge`.")
+    if run.state == "running":
+        notes.append("Still running: no results yet.")
+    return RunSection(
+        key=run.key,
+        heading=f"{run.key}: {proc['code']} {proc['title']}",
+        method=_method(proc),
+        outcome=OUTCOME_TEXT[outcome],
+        facts=facts,
+        checklist=checklist,
+        deviations=deviations,
+        equipment=equipment,
+        files=files,
+        verdicts=verdicts,
+        interpretation=interpretation,
+        figures=figures,
+        photos=photos,
+        notes=notes,
+    )
+
+
+def _basis(detail: str) -> str:
+    """The verdict's detail without the 'value against limit' its own columns show."""
+    head, sep, rest = detail.partition("; ")
+    if " against " in head:
+        return rest if sep else "-"
+    return detail
+
+
+def _limit(c: J.Criterion) -> str:
+    return c.shown_limits()
+
+
+def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext:
+    """Shape the loaded campaign into the report's context."""
+    from testplan.report.chart import calendar_chart
+
+    camp, plan = data.plan["campaign"], data.plan
+    device, target = camp["device"], camp["target"]
+    procs = {p["id"]: p for p in plan["procedures"]}
+    runs, figure_no, photo_no = [], 1, 1
+    for r in data.runs:
+        section = _run_section(r, figure_no, photo_no)
+        figure_no += len(section.figures)
+        photo_no += len(section.photos)
+        runs.append(section)
+    run_procs = {r.run.procedure_key for r in data.runs}
+    used = [procs[p] for p in procs if p in run_procs] or [
+        p for p in plan["procedures"] if p["status"] == "planned"
+    ]
+    started = [r.run.started_at for r in data.runs if r.run.started_at]
+    ended = [r.run.finished_at for r in data.runs if r.run.finished_at]
+    test_dates = (
+        f"{min(started).date()} to {max(ended).date()}"
+        if started and ended
+        else "no test carried out yet"
+    )
+    depth = target.get("immersion_depth_m")
+    hours = target.get("immersion_duration_h")
+    item = [
+        (
+            "Item",
+            f"{device['name']}, {device.get('maker') or ''} {device.get('model') or ''}".strip(),
+        ),
+        (
+            "Declared protection",
+            target["code"]
+            + (
+                f"; numeral 8 declared as {depth:g} m for {hours:g} h at the "
+                f"{target['depth_reference']}"
+                f" ({target['service_water']} water) (supplied by the client)"
+                if depth and hours
+                else ""
+            ),
+        ),
+        ("Height in service position", f"{device['height_mm']:g} mm (supplied by the client)"),
+    ]
+    receipt = {s.serial: s for s in data.specimens}
+    specimens = [
+        Row([s.serial, s.leg, _date(s.received_on), s.receipt_condition or "not recorded"])
+        for s in receipt.values()
+    ]
+    roll = data.rollup
+    legs = [Row([leg, OUTCOME_TEXT[o]], outcome=o) for leg, o in roll["legs"].items()]
+    spec_rows = [
+        Row([s, receipt[s].leg if s in receipt else "", OUTCOME_TEXT[o]], outcome=o)
+        for s, o in roll["specimens"].items()
+    ]
+    run_rows = []
+    for r in data.runs:
+        o = roll["runs"].get(r.run.key, J.NOT_RUN)
+        run_rows.append(
+            Row(
+                [
+                    r.run.key,
+                    ", ".join(r.specimens),
+                    f"{_date(r.run.started_at)[:10]} to {_date(r.run.finished_at)[:10]}",
+                    OUTCOME_TEXT[o],
+                ],
+                outcome=o,
+            )
+        )
+    standards = sorted({(p["standard"]["name"], p["standard"]["edition"] or "-") for p in used})
+    customer = []
+    for p in used:
+        for name, d in p["parameters"].items():
+            if d.get("provenance") == "declared":
+                customer.append(Row([p["id"], name, _param(d)]))
+    cautions = []
+    for p in used:
+        if p["cautions"]:
+            cautions.append((f"{p['id']}: {p['title']}", list(p["cautions"])))
+    external = [
+        f"{r.run.key}: {r.run.external_provider}" for r in data.runs if r.run.external_provider
+    ]
+    calendar = None
+    if plan.get("schedule"):
+        svg = calendar_chart(plan["schedule"], f"Calendar, plan revision {data.revision.number}")
+        text = svg.decode()
+        calendar = text[text.index("<svg") :]
+    return ReportContext(
+        title=camp["title"],
+        report_number=f"TR-{camp['reference']}",
+        revision=1,
+        issue_date=issue_date.isoformat(),
+        draft=True,
+        paper=paper,
+        laboratory=camp["laboratory"],
+        laboratory_address=camp.get("laboratory_address"),
+        location=camp.get("location"),
+        client=camp["client"],
+        client_contact=camp.get("client_contact"),
+        item=item,
+        specimens=specimens,
+        test_dates=test_dates,
+        decision_rule=data.rule.shown(),
+        summary_legs=legs,
+        summary_specimens=spec_rows,
+        summary_runs=run_rows,
+        campaign_outcome=OUTCOME_TEXT[roll["campaign"]],
+        runs=runs,
+        standards=[Row([n, e]) for n, e in standards],
+        customer_data=customer,
+        cautions=cautions,
+        external=external,
+        statements=[RESULTS_ONLY, CUSTOMER_DATA, INTERPRETATIONS, NOT_IN_PART],
+        reader_guidance=READER_GUIDANCE,
+        calendar_svg=calendar,
+        signatures=[],
+        figure_count=figure_no - 1,
+    )

@@ -1,0 +1,63 @@
+"""The report as a PDF: jinja2 renders the HTML, weasyprint (imported only here) prints it."""
+
+from __future__ import annotations
+
+import base64
+import json
+from dataclasses import asdict
+from pathlib import Path
+from typing import Any
+
+from markupsafe import Markup
+
+from testplan.report.context import ReportContext
+from testplan.report.render import environment
+
+
+def _css_string(text: Any) -> Markup:
+    """A CSS string literal: quoted, with quotes, backslashes and newlines escaped."""
+    body = str(text).replace("\\", "\\\\").replace('"', '\\"').replace("\n", " ")
+    return Markup(f'"{body}"')
+
+
+def _b64(text: str) -> str:
+    return base64.b64encode(text.encode()).decode()
+
+
+def report_html(ctx: ReportContext, templates: str | Path | None = None) -> str:
+    """The report as HTML (the same page weasyprint prints)."""
+    env = environment(templates)
+    env.filters["css_string"] = _css_string
+    env.filters["b64"] = _b64
+    return env.get_template("report.html.j2").render(c=ctx)
+
+
+def report_pdf(ctx: ReportContext, templates: str | Path | None = None) -> bytes:
+    """Print the report; the PDF's metadata carries the report number and revision."""
+    from weasyprint import HTML
+
+    html = report_html(ctx, templates)
+    meta = {
+        "report": ctx.report_number,
+        "revision": ctx.revision,
+        "draft": ctx.draft,
+        "manifest_root": ctx.manifest_root,
+    }
+    document = HTML(string=html, base_url=".").render()
+    document.metadata.title = f"{ctx.report_number} revision {ctx.revision}"
+    document.metadata.authors = [ctx.laboratory]
+    document.metadata.keywords = [json.dumps(meta, sort_keys=True)]
+    pdf: bytes = document.write_pdf()
+    return pdf
+
+
+def context_json(ctx: ReportContext) -> dict[str, Any]:
+    """The context as plain data (figures and photos without their image payloads)."""
+    data = asdict(ctx)
+    data.pop("calendar_svg", None)
+    for run in data["runs"]:
+        for f in run["figures"]:
+            f.pop("svg")
+        for p in run["photos"]:
+            p.pop("data_uri")
+    return data

@@ -1,0 +1,172 @@
+"""Everything a report needs, read from the store into plain data (no formatting here)."""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+from dataclasses import dataclass, field
+from typing import Any
+
+from sqlmodel import Session, col, select
+
+from testplan.domain import judge as J
+from testplan.store.judging import load_run, rollup
+from testplan.store.records import find_campaign, run_procedure, run_specimens
+from testplan.store.tables import (
+    Attachment,
+    Calibration,
+    CampaignRecord,
+    Deviation,
+    Equipment,
+    Judgement,
+    Observation,
+    Person,
+    PlanRevision,
+    RawFile,
+    RunEquipment,
+    RunRecord,
+    SpecimenRecord,
+    VerdictRecord,
+)
+
+
+@dataclass
+class RunRecordData:
+    """One run with its people, equipment, files, deviations, verdicts and photos."""
+
+    run: RunRecord
+    revision: int
+    procedure: dict[str, Any]
+    specimens: list[str]
+    operator: Person | None
+    checker: Person | None
+    equipment: list[tuple[Equipment, Calibration]]
+    raw_files: list[RawFile]
+    deviations: list[tuple[Deviation, Person]]
+    judgement: Judgement | None
+    verdicts: list[tuple[VerdictRecord, str | None]]
+    photos: list[tuple[Observation, Attachment, str | None]]
+    evidence: J.RunData | None
+
+
+@dataclass
+class ReportData:
+    campaign: CampaignRecord
+    revision: PlanRevision
+    plan: dict[str, Any]
+    specimens: list[SpecimenRecord]
+    runs: list[RunRecordData]
+    rollup: dict[str, Any]
+    rule: J.Rule
+    extras: dict[str, Any] = field(default_factory=dict)
+
+
+def _person(session: Session, pid: Any) -> Person | None:
+    return session.get(Person, pid) if pid else None
+
+
+def load_report(session: Session, campaign: str | None) -> ReportData:
+    """The campaign as of its latest plan revision, with every run that was carried out."""
+    from testplan.store.judging import rule_of
+
+    camp = find_campaign(session, campaign)
+    revision = session.exec(
+        select(PlanRevision)
+        .where(PlanRevision.campaign_id == camp.id)
+        .order_by(col(PlanRevision.number).desc())
+    ).first()
+    assert revision is not None
+    plan: dict[str, Any] = json.loads(revision.plan_json)
+    numbers = {
+        r.id: r.number
+        for r in session.exec(select(PlanRevision).where(PlanRevision.campaign_id == camp.id))
+    }
+    specimens = list(
+        session.exec(
+            select(SpecimenRecord)
+            .where(SpecimenRecord.campaign_id == camp.id)
+            .order_by(col(SpecimenRecord.serial))
+        ).all()
+    )
+    runs = []
+    rows = session.exec(
+        select(RunRecord)
+        .where(RunRecord.campaign_id == camp.id, col(RunRecord.started_at).is_not(None))
+        .order_by(col(RunRecord.started_at), col(RunRecord.key))
+    ).all()
+    for run in rows:
+        serial_of = {s.id: s.serial for s in run_specimens(session, run)}
+        equipment = [
+            (e, c)
+            for e, c in session.exec(
+                select(Equipment, Calibration)
+                .join(RunEquipment, col(RunEquipment.equipment_id) == col(Equipment.id))
+                .join(Calibration, col(Calibration.id) == col(RunEquipment.calibration_id))
+                .where(RunEquipment.run_id == run.id)
+                .order_by(col(Equipment.tag), col(Calibration.channel))
+            ).all()
+        ]
+        judgement = session.exec(
+            select(Judgement)
+            .where(Judgement.run_id == run.id)
+            .order_by(col(Judgement.judged_at).desc())
+        ).first()
+        verdicts = []
+        if judgement is not None:
+            for v in session.exec(
+                select(VerdictRecord)
+                .where(VerdictRecord.judgement_id == judgement.id)
+                .order_by(col(VerdictRecord.criterion_key))
+            ).all():
+                verdicts.append((v, serial_of.get(v.specimen_id) if v.specimen_id else None))
+        photos = []
+        for o, a in session.exec(
+            select(Observation, Attachment)
+            .join(Attachment, col(Attachment.id) == col(Observation.attachment_id))
+            .where(Observation.run_id == run.id)
+            .order_by(col(Observation.recorded_at))
+        ).all():
+            photos.append((o, a, serial_of.get(o.specimen_id) if o.specimen_id else None))
+        deviations = [
+            (d, p)
+            for d, p in session.exec(
+                select(Deviation, Person)
+                .join(Person, col(Person.id) == col(Deviation.approved_by_id))
+                .where(Deviation.run_id == run.id)
+                .order_by(col(Deviation.recorded_at))
+            ).all()
+        ]
+        finished = run.state in ("finished", "checked")
+        runs.append(
+            RunRecordData(
+                run=run,
+                revision=numbers[run.revision_id],
+                procedure=run_procedure(session, run),
+                specimens=sorted(serial_of.values()),
+                operator=_person(session, run.operator_id),
+                checker=_person(session, run.checker_id),
+                equipment=equipment,
+                raw_files=list(
+                    session.exec(
+                        select(RawFile)
+                        .where(RawFile.run_id == run.id)
+                        .order_by(col(RawFile.imported_at))
+                    ).all()
+                ),
+                deviations=deviations,
+                judgement=judgement,
+                verdicts=verdicts,
+                photos=photos,
+                evidence=load_run(session, run) if finished else None,
+            )
+        )
+    return ReportData(
+        campaign=camp,
+        revision=revision,
+        plan=plan,
+        specimens=specimens,
+        runs=runs,
+        rollup=rollup(session, camp).to_json(),
+        rule=rule_of(plan),
+        extras={"generated": dt.datetime.now(dt.UTC)},
+    )

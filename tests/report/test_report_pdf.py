@@ -1,0 +1,170 @@
+"""`testplan report`: a real PDF read back for each ISO/IEC 17025 cl. 7.8.2.1 item."""
+
+from __future__ import annotations
+
+import datetime as dt
+import re
+from pathlib import Path
+
+import pytest
+from pypdf import PdfReader
+
+from tests.store.conftest import SAMPLE, START, Bench
+
+RUN = "water-8@ip-verification-1"
+KNOB = "endurance-mode-selector-knob@aged-1"
+
+
+@pytest.fixture(scope="module")
+def report(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[str], PdfReader]:
+    """A store with an immersion (with a dip) and an endurance run, judged and reported."""
+    folder = tmp_path_factory.mktemp("report")
+    b = Bench(f"sqlite:///{folder / 'lab.db'}", folder)
+    b("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator", "--quiet")
+    b("people", "add", "MO", "--name", "Mark Osei", "--role", "checker", "--role", "approver",
+      "--by", "AK", "--quiet")  # fmt: skip
+    b("init", str(SAMPLE), "--quiet")
+    b("record", "receive", "QC-2027-014-S01", "QC-2027-014-S02", "--on", "2027-01-06",
+      "--condition", "new, sealed carton", "--by", "AK", "--quiet")  # fmt: skip
+    for tag, channel, u in (("PT-03", "lowest_point_depth", "4 mm"), ("TQ-11", "cycle_count", "0")):
+        b("equipment", "add", tag, "--description", f"{channel} sensor", "--quiet")
+        b("equipment", "calibrate", tag, "--channel", channel, "--certificate", f"VC-{tag}",
+          "--provider", "Vale Calibration Ltd", "--calibrated", "2026-06-01", "--due",
+          "2027-06-01", "--uncertainty", u, "--quiet")  # fmt: skip
+    b("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--deviation",
+      "tank topped up during the run", "--deviation-reason", "evaporation", "--approved-by",
+      "MO", "--quiet")  # fmt: skip
+    t0 = dt.datetime(2027, 1, 12, 16, 5, tzinfo=dt.UTC)
+    rows = ["time,depth"]
+    for m in range(4400):
+        depth = 2000.0 if m in (600, 601) else 2100.0
+        rows.append(f"{t0 + dt.timedelta(minutes=m):%Y-%m-%dT%H:%M:%SZ},{depth}")
+    tank = b.write("tank.csv", "\n".join(rows) + "\n")
+    b("record", "import", RUN, str(tank), "--map", "depth[mm]=lowest_point_depth@PT-03",
+      "--by", "AK", "--quiet")  # fmt: skip
+    b("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
+    b("record", "check", RUN, "--by", "MO", "--at", "2027-01-16T09:00Z", "--quiet")
+    start = [a if a != "PT-03" else "TQ-11" for a in START]
+    b("record", "start", KNOB, *start, "--at", "2027-01-12T11:00Z", "--quiet")
+    k0 = dt.datetime(2027, 1, 12, 11, tzinfo=dt.UTC)
+    rig = b.write("rig.csv", "time,cycles\n" + "".join(
+        f"{k0 + dt.timedelta(minutes=c / 10):%Y-%m-%dT%H:%M:%SZ},{c}\n"
+        for c in range(0, 54_001, 1000)))  # fmt: skip
+    b("record", "import", KNOB, str(rig), "--map", "cycles[cycle]=cycle_count@TQ-11", "--by",
+      "AK", "--quiet")  # fmt: skip
+    b("record", "finish", KNOB, "--by", "AK", "--at", "2027-01-16T05:05Z", "--quiet")
+    b("judge", "--quiet", ok=False)
+    pdf = folder / "out" / "report.pdf"
+    pdf.parent.mkdir()
+    result = b("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01")
+    assert result.stdout.strip() == f"wrote {pdf}"
+    reader = PdfReader(pdf)
+    pages = [" ".join(p.extract_text().split()) for p in reader.pages]
+    return pdf, pages, reader
+
+
+def text(report: tuple[Path, list[str], PdfReader]) -> str:
+    return " ".join(report[1])
+
+
+@pytest.mark.parametrize(
+    "needle",
+    [
+        # source: ISO/IEC 17025:2017 cl. 7.8.2.1 a-p (from memory)
+        "Test report",  # a) title
+        "Northbank Environmental Test Laboratory, 14 Ferry Road, Northbank Industrial Estate",  # b)
+        "Place of testing Northbank laboratory, bay 2",  # c)
+        "Report number and revision TR-QC-2027-014, revision 1",  # d)
+        "Halden Hydrometrics Ltd",  # e) client
+        "contact: Priya Nair",  # e) contact
+        "Method: IEC 60529:Ed. 2.2",  # f) method with edition
+        "cl. 14.2.8",  # f) clause
+        "QC-2027-014-S01 ip-verification 2027-01-06 new, sealed carton",  # g) h) items, receipt
+        "Dates of test 2027-01-12 to 2027-01-16",  # i)
+        "Date of issue 2027-02-01",  # j)
+        "The results in this report relate only to the items tested",  # l)
+        "tank topped up during the run evaporation Mark Osei (MO)",  # n) deviation, who allowed
+        "Not yet prepared, reviewed and approved",  # o) authorisation (draft)
+        "Results from external providers: none",  # p)
+        "21 degC, 45 %RH, 1012 hPa at the start",  # environmental conditions
+        "VC-PT-03, Vale Calibration Ltd",  # equipment and certificate
+        "valid for the run",  # calibration status
+        "4 mm (k = 2)",  # uncertainty
+        "guarded acceptance, w = 1 x U (ILAC-G8); agreed: client letter HH-QA-0112",  # rule
+        "supplied by the client",  # customer-supplied data identified (cl. 7.8.2.2)
+        "The laboratory is not responsible for it",  # its disclaimer
+        "Interpretation. Interpretation, not a measured result",  # cl. 7.8.7
+        "shall not be reproduced except in full",
+    ],
+)
+def test_each_checklist_item_is_in_the_pdf(report, needle: str) -> None:  # type: ignore[no-untyped-def]
+    assert needle in text(report)
+
+
+def test_every_page_carries_the_report_number_and_page_x_of_y(report) -> None:  # type: ignore[no-untyped-def]
+    pages = report[1]
+    assert len(pages) >= 6
+    for i, page in enumerate(pages, start=1):
+        assert "TR-QC-2027-014 revision 1 issued 2027-02-01" in page
+        assert f"Page {i} of {len(pages)}" in page
+        assert "DRAFT: not authorised for issue" in page
+    assert "End of report TR-QC-2027-014, revision 1" in pages[-1]
+
+
+def test_summary_comes_first(report) -> None:  # type: ignore[no-untyped-def]
+    first = report[1][0]
+    assert "Summary of results" in first
+    assert "Verdict per leg" in first and "Verdict per specimen" in first
+    assert re.search(r"water-8@ip-verification-1 QC-2027-014-S01, QC-2027-014-S02 .* fail", first)
+
+
+def test_results_carry_units_uncertainty_and_verdict(report) -> None:  # type: ignore[no-untyped-def]
+    body = text(report)
+    assert "depth all 2000 mm >= 2053.7 mm 4 mm (k = 2) -53.7 fail" in body
+    assert "below the limit for about 2 min in the exposure" in body
+
+
+def test_editions_cautions_and_guidance_for_the_reader(report) -> None:  # type: ignore[no-untyped-def]
+    body = text(report)
+    assert "Methods and editions" in body and "IEC 60529 Ed. 2.2 (1989 + A1:1999 + A2:2013)" in body
+    assert "Safety cautions for the tests performed" in body
+    assert "de-energise before handling or opening" in body
+    assert "For anyone reusing the methods described here" in body
+    assert "the product standard, local codes and accredited or licensed practice take " \
+           "precedence over any value or wording here" in body  # fmt: skip
+
+
+def test_plots_are_present(report) -> None:  # type: ignore[no-untyped-def]
+    body = text(report)
+    assert "Figure 1. water-8@ip-verification-1: lowest_point_depth over the run" in body
+    assert "Campaign calendar" in body
+    pdf, pages, reader = report
+    figure_page = next(i for i, p in enumerate(pages) if "Figure 1." in p)
+    xobjects = reader.pages[figure_page]["/Resources"].get("/XObject", {})
+    assert len(xobjects) >= 1
+    assert pdf.stat().st_size < 20 * 1024 * 1024
+
+
+def test_the_pdf_is_written_whole_with_the_usual_mode(report) -> None:  # type: ignore[no-untyped-def]
+    pdf = report[0]
+    assert [p.name for p in pdf.parent.iterdir()] == ["report.pdf"]
+    assert pdf.stat().st_mode & 0o044 == 0o044
+    assert report[2].metadata.title == "TR-QC-2027-014 revision 1"
+
+
+def test_letter_paper_and_bad_options(report, tmp_path: Path) -> None:  # type: ignore[no-untyped-def]
+    folder = report[0].parent.parent
+    b = Bench(f"sqlite:///{folder / 'lab.db'}", folder)
+    out = tmp_path / "letter.pdf"
+    b("report", "QC-2027-014", "-o", str(out), "--paper", "letter", "--quiet")
+    box = PdfReader(out).pages[0].mediabox
+    assert (round(float(box.width)), round(float(box.height))) == (612, 792)
+    a4 = PdfReader(report[0]).pages[0].mediabox
+    assert (round(float(a4.width)), round(float(a4.height))) == (595, 842)
+    assert b.fail("report", "QC-2027-014", "-o", str(out), "--paper", "a3") == (
+        "error: --paper: unknown paper 'a3' (a4 or letter)"
+    )
+    assert "no campaign 'QC-2027-41'" in b.fail("report", "QC-2027-41", "-o", str(out))
+    assert b.fail("report", "QC-2027-014", "-o", str(tmp_path / "r.txt")).endswith(
+        "--output: the report file must end in .pdf"
+    )
