@@ -63,9 +63,7 @@ def endurance(path: Path, start: dt.datetime, cycles: int, rate_per_min: float) 
         t = start + dt.timedelta(minutes=c / rate_per_min)
         wear = c / cycles
         tq = [b * (1 - 0.06 * wear) + RNG.gauss(0, 0.25) for b in base]
-        lines.append(
-            f"{t.strftime('%Y-%m-%dT%H:%M:%SZ')},{c},{tq[0]:.2f},{tq[1]:.2f},{tq[2]:.2f}"
-        )
+        lines.append(f"{t.strftime('%Y-%m-%dT%H:%M:%SZ')},{c},{tq[0]:.2f},{tq[1]:.2f},{tq[2]:.2f}")
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
 
 
@@ -84,8 +82,9 @@ def salt_mist(cabinet: Path, fog: Path, start: dt.datetime, cycles: int) -> None
     rows = ["time,fog_ml_h,ph"]
     for c in range(cycles):
         t = start + dt.timedelta(hours=24 * c + 2)
-        rows.append(f"{t:%Y-%m-%dT%H:%M:%SZ},{1.45 + RNG.gauss(0, 0.12):.2f},"
-                    f"{6.8 + RNG.gauss(0, 0.05):.2f}")  # fmt: skip
+        rows.append(
+            f"{t:%Y-%m-%dT%H:%M:%SZ},{1.45 + RNG.gauss(0, 0.12):.2f},{6.8 + RNG.gauss(0, 0.05):.2f}"
+        )
     fog.write_text("\n".join(rows) + "\n", encoding="utf-8")
 
 
@@ -125,7 +124,10 @@ meter = "IR-04"
         )
     return "".join(parts)
 
-SHEET_FAIL = sheet_pass("72 h immersion", ["QC-2027-014-S03"]) + """
+
+SHEET_FAIL = (
+    sheet_pass("72 h immersion", ["QC-2027-014-S03"])
+    + """
 
 [[ingress]]
 specimen = "QC-2027-014-S04"
@@ -154,6 +156,7 @@ specimen = "QC-2027-014-S04"
 file = "s04-gland.png"
 caption = "S04 cable-gland nut, water film at the thread"
 """
+)
 
 
 def photo(path: Path) -> None:

@@ -125,5 +125,17 @@ testplan record list
 # Judge every finished run from its data; water-8@aged-1 fails (exit 3 is expected here).
 testplan judge || [ $? -eq 3 ]
 
-# The test report (a draft until it is signed off).
-testplan report QC-2027-014 -o "$out/report.pdf" --issue-date 2027-02-01
+# Sign-off by three different people with their own keys (an invented demo passphrase).
+export TESTPLAN_KEY_PASSPHRASE="riverwatch demo only"
+rm -rf "$out/keys" && mkdir -p "$out/keys"
+for who in RP LV MO; do
+    testplan keys new $who --out "$out/keys/$who.pem"
+    testplan keys register $who --public "$out/keys/$who.pem.pub" --by MO $q
+done
+testplan sign QC-2027-014 --role prepared --as RP --key "$out/keys/RP.pem" $q
+testplan sign QC-2027-014 --role reviewed --as LV --key "$out/keys/LV.pem" $q
+testplan sign QC-2027-014 --role approved --as MO --key "$out/keys/MO.pem" $q
+
+# The issued test report, then a check of the PDF against the store.
+testplan report QC-2027-014 -o "$out/report.pdf" --issue-date 2027-02-01 $q
+testplan verify "$out/report.pdf"

@@ -59,25 +59,33 @@ def test_demo_bench_work_records_six_runs_judges_them_and_checks_out(tmp_path: P
     # Judged from the data: the made-to-fail run fails and says why.
     assert "water-8@aged-1: FAIL" in lines
     assert "water-8@aged-2: PASS" in lines
-    assert any(ln.startswith("  FAIL   water-8.depth: 19") and "below the limit" in ln
-               for ln in lines)  # fmt: skip
+    assert any(
+        ln.startswith("  FAIL   water-8.depth: 19") and "below the limit" in ln for ln in lines
+    )
     assert "campaign: fail" in lines
+    # Signed off by three people, issued, and the PDF checks out against the store.
+    assert lines[-1] == f"verified: {tmp_path / 'report.pdf'}"
     engine = sa.create_engine(f"sqlite:///{tmp_path / 'testplan.db'}")
     try:
         with engine.connect() as conn:
             assert conn.execute(sa.text("SELECT count(*) FROM raw_file")).scalar() == 7
             # The made-to-fail run: the lowest point above 2053.7 mm for four minutes.
-            shallow = conn.execute(sa.text(
-                "SELECT count(*) FROM sample s JOIN logger_channel c ON c.raw_file_id = "
-                "s.raw_file_id AND c.number = s.channel JOIN raw_file f ON f.id = s.raw_file_id "
-                "WHERE f.name = 'tank-aged1.csv' AND c.quantity = 'lowest_point_depth' "
-                "AND s.value > 1900 AND s.value < 2053.7"
-            )).scalar()  # fmt: skip
+            shallow = conn.execute(
+                sa.text(
+                    "SELECT count(*) FROM sample s JOIN logger_channel c "
+                    "ON c.raw_file_id = s.raw_file_id AND c.number = s.channel "
+                    "JOIN raw_file f ON f.id = s.raw_file_id "
+                    "WHERE f.name = 'tank-aged1.csv' AND c.quantity = 'lowest_point_depth' "
+                    "AND s.value > 1900 AND s.value < 2053.7"
+                )
+            ).scalar()
             assert shallow == 4
-            found = conn.execute(sa.text(
-                "SELECT o.data_json FROM observation o JOIN specimen s ON s.id = o.specimen_id "
-                "WHERE o.kind = 'ingress' AND s.serial = 'QC-2027-014-S04'"
-            )).scalar()  # fmt: skip
+            found = conn.execute(
+                sa.text(
+                    "SELECT o.data_json FROM observation o JOIN specimen s ON s.id = o.specimen_id "
+                    "WHERE o.kind = 'ingress' AND s.serial = 'QC-2027-014-S04'"
+                )
+            ).scalar()
             assert '"found":true' in found
     finally:
         engine.dispose()

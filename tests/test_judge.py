@@ -30,19 +30,47 @@ def procedure(pid: str) -> dict[str, Any]:
     return next(p for p in PLAN["procedures"] if p["id"] == pid)
 
 
-def series(quantity: str, minutes: Any, values: Any, unit: str, u: float | None = None,
-           specimen: str | None = None, **kw: Any) -> J.Series:  # fmt: skip
+def series(
+    quantity: str,
+    minutes: Any,
+    values: Any,
+    unit: str,
+    u: float | None = None,
+    specimen: str | None = None,
+    **kw: Any,
+) -> J.Series:
     t = (T0.timestamp() * 1e6 + np.asarray(minutes, dtype=float) * MIN).astype(np.int64)
-    return J.Series(quantity, specimen, t, np.asarray(values, dtype=float), unit,
-                    uncertainty=u, coverage_k=2.0 if u is not None else None,
-                    source=f"{quantity}:{specimen}", **kw)  # fmt: skip
+    return J.Series(
+        quantity,
+        specimen,
+        t,
+        np.asarray(values, dtype=float),
+        unit,
+        uncertainty=u,
+        coverage_k=2.0 if u is not None else None,
+        source=f"{quantity}:{specimen}",
+        **kw,
+    )
 
 
-def run(pid: str, *series_: J.Series, obs: list[J.Obs] | None = None, hours: float = 73,
-        specimens: tuple[str, ...] = ("S01", "S02"), **kw: Any) -> J.RunData:  # fmt: skip
-    return J.RunData(key=f"{pid}@leg-1", procedure=procedure(pid), specimens=list(specimens),
-                     started_at=T0, finished_at=T0 + dt.timedelta(hours=hours),
-                     series=list(series_), observations=obs or [], **kw)  # fmt: skip
+def run(
+    pid: str,
+    *series_: J.Series,
+    obs: list[J.Obs] | None = None,
+    hours: float = 73,
+    specimens: tuple[str, ...] = ("S01", "S02"),
+    **kw: Any,
+) -> J.RunData:
+    return J.RunData(
+        key=f"{pid}@leg-1",
+        procedure=procedure(pid),
+        specimens=list(specimens),
+        started_at=T0,
+        finished_at=T0 + dt.timedelta(hours=hours),
+        series=list(series_),
+        observations=obs or [],
+        **kw,
+    )
 
 
 def verdicts(data: J.RunData, rule: J.Rule, quantity: str) -> list[J.Verdict]:
@@ -183,8 +211,14 @@ def test_readings_outside_the_calibrated_range_are_flagged() -> None:
 def test_start_temperature_rule(specimen_c: float, simple: str, guarded: str) -> None:
     minutes = np.arange(0, 4332)
     water = series("water_temperature", minutes, np.full(len(minutes), 12.0), "degC", u=0.2)
-    spec = series("specimen_temperature", minutes, np.full(len(minutes), specimen_c), "degC",
-                  u=0.5, specimen="S01")  # fmt: skip
+    spec = series(
+        "specimen_temperature",
+        minutes,
+        np.full(len(minutes), specimen_c),
+        "degC",
+        u=0.5,
+        specimen="S01",
+    )
     data = run("water-8", tank(), water, spec)
     (v,) = verdicts(data, SIMPLE, "water_specimen_difference")
     assert v.measured == pytest.approx(specimen_c - 12.0)
@@ -232,8 +266,7 @@ def knob(s03_at_5000: float) -> J.RunData:
         series("torque", minutes, t03, "N*mm", u=0.4, specimen="S03"),
         series("torque", minutes, np.full(len(cycles), 26.0), "N*mm", u=0.4, specimen="S04"),
     ]
-    return run("endurance-mode-selector-knob", counter, *tq, specimens=("S03", "S04"),
-               hours=91)  # fmt: skip
+    return run("endurance-mode-selector-knob", counter, *tq, specimens=("S03", "S04"), hours=91)
 
 
 def test_torque_drift_past_the_band_at_a_checkpoint() -> None:
@@ -265,11 +298,24 @@ def test_torque_at_cycle_zero_and_cycles_reached() -> None:
 
 
 def leak_obs(p2: float, t1: float = 21.4, t2: float = 21.4, u: float | None = None) -> J.Obs:
-    data = {"start_pressure": 1200.0, "end_pressure": p2, "duration": 600.0,
-            "start_temperature": t1, "end_temperature": t2, "barometric_pressure": 1012.0,
-            "dead_volume": 0.045}  # fmt: skip
-    return J.Obs("leak_test", "S01", data, T0, "leak", uncertainty=u,
-                 coverage_k=2.0 if u is not None else None)  # fmt: skip
+    data = {
+        "start_pressure": 1200.0,
+        "end_pressure": p2,
+        "duration": 600.0,
+        "start_temperature": t1,
+        "end_temperature": t2,
+        "barometric_pressure": 1012.0,
+        "dead_volume": 0.045,
+    }
+    return J.Obs(
+        "leak_test",
+        "S01",
+        data,
+        T0,
+        "leak",
+        uncertainty=u,
+        coverage_k=2.0 if u is not None else None,
+    )
 
 
 @pytest.mark.parametrize(

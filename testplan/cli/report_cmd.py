@@ -3,13 +3,16 @@
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 
-from testplan.cli.common import DbOption, QuietOption, open_for_reading, parse_date, say
+from testplan.cli.common import DbOption, QuietOption, open_for_writing, parse_date, say
 from testplan.cli.errors import reports_errors
 from testplan.errors import TestplanError
+
+if TYPE_CHECKING:  # pragma: no cover
+    from sqlmodel import Session
 
 
 @reports_errors
@@ -49,12 +52,32 @@ def report_command(
     if output.suffix.lower() != ".pdf":
         raise TestplanError("the report file must end in .pdf", file=output, key="--output")
     day = parse_date(issue_date, "--issue-date") if issue_date else dt.datetime.now(dt.UTC).date()
-    store = open_for_reading(db)
+    import hashlib
+
+    from testplan.store import records, signoff
+
+    store = open_for_writing(db, quiet=quiet)
     with store.reading() as session:
         data = load_report(session, campaign)
     ctx = build(data, issue_date=day, paper=sizes[paper.lower()])
+    pdf = report_pdf(ctx, templates)
+    if not ctx.draft:
+        sha = hashlib.sha256(pdf).hexdigest()
+
+        def unit(session: Session) -> None:
+            camp = records.find_campaign(session, campaign)
+            signoff.record_issue(
+                session,
+                campaign=camp,
+                pdf_sha256=sha,
+                report_number=ctx.report_number,
+                by=records.os_actor(),
+            )
+
+        store.write(unit)
+        say(f"issued {ctx.report_number} revision {ctx.revision}, PDF SHA-256 {sha}", quiet=quiet)
     if html is not None:
         write_atomically(html, report_html(ctx, templates).encode())
-    write_atomically(output, report_pdf(ctx, templates))
+    write_atomically(output, pdf)
     say(f"{ctx.figure_count} figure(s), {len(ctx.runs)} run section(s)", quiet=quiet)
     typer.echo(f"wrote {output}")

@@ -123,6 +123,7 @@ class ReportContext:
     reader_guidance: str
     calendar_svg: str | None
     signatures: list[Row]
+    replaces: str | None = None
     tool_version: str = __version__
     manifest_root: str | None = None
     figure_count: int = 0
@@ -383,12 +384,16 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
         svg = calendar_chart(plan["schedule"], f"Calendar, plan revision {data.revision.number}")
         text = svg.decode()
         calendar = text[text.index("<svg") :]
+    state = data.signoff
+    signatures = [Row([role, who, at, fp]) for role, who, at, fp in state.signers]
     return ReportContext(
         title=camp["title"],
         report_number=f"TR-{camp['reference']}",
-        revision=1,
+        revision=state.revision,
         issue_date=issue_date.isoformat(),
-        draft=True,
+        draft=not state.approved,
+        replaces=state.replaces,
+        manifest_root=state.manifest_root,
         paper=paper,
         laboratory=camp["laboratory"],
         laboratory_address=camp.get("laboratory_address"),
@@ -411,6 +416,6 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
         statements=[RESULTS_ONLY, CUSTOMER_DATA, INTERPRETATIONS, NOT_IN_PART],
         reader_guidance=READER_GUIDANCE,
         calendar_svg=calendar,
-        signatures=[],
+        signatures=signatures,
         figure_count=figure_no - 1,
     )

@@ -42,6 +42,7 @@ def report_pdf(ctx: ReportContext, templates: str | Path | None = None) -> bytes
         "revision": ctx.revision,
         "draft": ctx.draft,
         "manifest_root": ctx.manifest_root,
+        "signers": [r.cells[:2] for r in ctx.signatures],
     }
     document = HTML(string=html, base_url=".").render()
     document.metadata.title = f"{ctx.report_number} revision {ctx.revision}"
@@ -60,4 +61,28 @@ def context_json(ctx: ReportContext) -> dict[str, Any]:
             f.pop("svg")
         for p in run["photos"]:
             p.pop("data_uri")
+    return data
+
+
+def read_claims(content: bytes, name: Any) -> dict[str, Any]:
+    """What a report PDF says about itself (report number, revision, manifest root), from
+    its metadata. An unreadable file is a user error naming it."""
+    import io
+
+    from pypdf import PdfReader
+    from pypdf.errors import PdfReadError
+
+    from testplan.errors import TestplanError
+
+    try:
+        meta = PdfReader(io.BytesIO(content)).metadata
+    except (PdfReadError, ValueError, OSError) as err:
+        raise TestplanError(f"not a readable PDF ({err})", file=name) from None
+    keywords = meta.get("/Keywords", "") if meta is not None else ""
+    try:
+        data = json.loads(str(keywords))
+    except ValueError:
+        data = None
+    if not isinstance(data, dict) or "report" not in data:
+        raise TestplanError("not a testplan report: its metadata names no report", file=name)
     return data

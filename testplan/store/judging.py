@@ -292,6 +292,9 @@ def judge_one(session: Session, run: RunRecord, actor: str) -> RunJudgement:
     ).first()
     new = last is None or last.inputs_sha256 != inputs
     if new:
+        from testplan.store.signoff import ensure_open
+
+        ensure_open(session, run.campaign_id)
         j = Judgement(
             run_id=run.id,
             revision_id=run.revision_id,

@@ -336,6 +336,7 @@ def store_campaign(
         ).first()
         if last is not None and last.plan_sha256 == plan_sha and last.source_sha256 == source_sha:
             return StoredPlan(campaign, last, "unchanged")
+        _open(session, campaign.id)
         old = audit.values_of(campaign, "title", "client", "laboratory", "location")
         campaign.title, campaign.client = info.title, info.client
         campaign.laboratory, campaign.location = info.laboratory, info.location
@@ -602,6 +603,22 @@ def list_runs(session: Session, campaign: str | None) -> list[RunRecord]:
 # --- bench records ----------------------------------------------------------------------
 
 
+def _open(session: Session, campaign_id: uuid.UUID) -> None:
+    """Refuse changes to an approved (locked) campaign."""
+    from testplan.store.signoff import ensure_open
+
+    ensure_open(session, campaign_id)
+
+
+def _amended_since(session: Session, run: RunRecord) -> bool:
+    """An open amendment lets observations be added to runs already checked (every run is
+    checked before sign-off, so an amendment always follows the checks)."""
+    from testplan.store.tables import Amendment
+
+    found = session.exec(select(Amendment).where(Amendment.campaign_id == run.campaign_id)).first()
+    return found is not None
+
+
 def _state(run: RunRecord, allowed: Sequence[str], doing: str) -> None:
     if run.state not in allowed:
         told = {
@@ -635,6 +652,7 @@ class StartSheet:
 
 def start_run(session: Session, *, run: RunRecord, sheet: StartSheet) -> list[str]:
     """Start a run; returns warnings (e.g. lab ambient outside the usual band)."""
+    _open(session, run.campaign_id)
     _state(run, ("planned",), "start")
     operator = require_role(session, sheet.operator, "operator", key="--operator")
     started = sheet.at or utc_now()
@@ -759,6 +777,7 @@ def add_deviation(
     recorded_by: str,
 ) -> Deviation:
     """A departure from the method, allowed only with an authorised approver and a reason."""
+    _open(session, run.campaign_id)
     _state(run, ("planned", "running", "finished"), "record a deviation on")
     if not description.strip() or not reason.strip():
         raise RecordError("a deviation needs a description and a reason", key="--reason")
@@ -789,6 +808,7 @@ def add_deviation(
 def finish_run(
     session: Session, *, run: RunRecord, by: str, at: dt.datetime | None, note: str | None
 ) -> RunRecord:
+    _open(session, run.campaign_id)
     _state(run, ("running",), "finish")
     person = require_role(session, by, "operator")
     finished = at or utc_now()
@@ -823,6 +843,7 @@ def check_run(
     at: dt.datetime | None = None,
 ) -> RunRecord:
     """The data check by a second authorised person (not the operator)."""
+    _open(session, run.campaign_id)
     _state(run, ("finished",), "check")
     checker = require_role(session, by, "checker")
     if checker.id == run.operator_id:
@@ -869,6 +890,7 @@ def receive_specimens(
 ) -> list[SpecimenRecord]:
     """Record the date of receipt and the condition on receipt of specimens."""
     camp = find_campaign(session, campaign)
+    _open(session, camp.id)
     person = find_person(session, by)
     known = {
         s.serial: s
@@ -916,6 +938,7 @@ def import_logger_data(
     """Store a logger file byte for byte, its channel map and its samples, as one unit."""
     from testplan.store.samples import digest_arrays, insert_samples
 
+    _open(session, run.campaign_id)
     _state(run, ("running", "finished"), "import data into")
     operator = require_role(session, by, "operator")
     used = {
@@ -1027,7 +1050,9 @@ class ObservationIn:
 def add_observations(
     session: Session, *, run: RunRecord, items: Sequence[ObservationIn], by: str
 ) -> list[Observation]:
-    _state(run, ("running", "finished"), "record observations on")
+    _open(session, run.campaign_id)
+    if not (run.state == "checked" and _amended_since(session, run)):
+        _state(run, ("running", "finished"), "record observations on")
     person = require_role(session, by, "operator")
     serials = {s.serial: s for s in run_specimens(session, run)}
     out = []

@@ -51,6 +51,7 @@ class RunRecordData:
 
 @dataclass
 class ReportData:
+    signoff: Any
     campaign: CampaignRecord
     revision: PlanRevision
     plan: dict[str, Any]
@@ -160,7 +161,10 @@ def load_report(session: Session, campaign: str | None) -> ReportData:
                 evidence=load_run(session, run) if finished else None,
             )
         )
+    from testplan.store.signoff import signoff_state
+
     return ReportData(
+        signoff=signoff_state(session, camp),
         campaign=camp,
         revision=revision,
         plan=plan,

@@ -399,3 +399,70 @@ class VerdictRecord(SQLModel, table=True):
     detail: str = Field(sa_type=sa.Text)
     flags_json: str = Field(sa_type=sa.Text)
     inputs_sha256: str = Field(max_length=64)
+
+
+# --- sign-off (migration 0005) ----------------------------------------------------------
+
+
+class PersonKey(SQLModel, table=True):
+    """A public signing key (Ed25519, raw bytes in base64) registered for a person."""
+
+    __tablename__ = "person_key"
+    id: uuid.UUID = Field(default_factory=_id, primary_key=True)
+    person_id: uuid.UUID = Field(foreign_key="person.id", index=True)
+    public_key: str = Field(max_length=64)
+    fingerprint: str = Field(unique=True, max_length=64)
+    registered_by: str
+    registered_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
+
+
+class Manifest(SQLModel, table=True):
+    """The campaign's records as signed: every item's hash, and the root over them."""
+
+    __tablename__ = "manifest"
+    id: uuid.UUID = Field(default_factory=_id, primary_key=True)
+    campaign_id: uuid.UUID = Field(foreign_key="campaign.id", index=True)
+    root: str = Field(max_length=64)
+    body_json: str = Field(sa_type=sa.Text)
+    created_by: str
+    created_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
+
+
+class Signature(SQLModel, table=True):
+    """One sign-off of a manifest: role, person, key and the Ed25519 signature."""
+
+    __tablename__ = "signature"
+    __table_args__ = (sa.UniqueConstraint("manifest_id", "role"),)
+    id: uuid.UUID = Field(default_factory=_id, primary_key=True)
+    manifest_id: uuid.UUID = Field(foreign_key="manifest.id", index=True)
+    role: str = Field(max_length=16)
+    person_id: uuid.UUID = Field(foreign_key="person.id")
+    key_id: uuid.UUID = Field(foreign_key="person_key.id")
+    signed_at: dt.datetime = Field(sa_type=UTCDateTime)
+    signature: str = Field(max_length=128)
+
+
+class Amendment(SQLModel, table=True):
+    """An approved campaign reopened for change: why, by whom, and what it supersedes."""
+
+    __tablename__ = "amendment"
+    id: uuid.UUID = Field(default_factory=_id, primary_key=True)
+    campaign_id: uuid.UUID = Field(foreign_key="campaign.id", index=True)
+    supersedes_manifest_id: uuid.UUID = Field(foreign_key="manifest.id")
+    reason: str
+    requested_by: str
+    at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
+
+
+class ReportIssue(SQLModel, table=True):
+    """A PDF issued for an approved manifest, by its SHA-256."""
+
+    __tablename__ = "report_issue"
+    id: uuid.UUID = Field(default_factory=_id, primary_key=True)
+    campaign_id: uuid.UUID = Field(foreign_key="campaign.id", index=True)
+    manifest_id: uuid.UUID = Field(foreign_key="manifest.id")
+    report_number: str
+    revision: int
+    pdf_sha256: str = Field(unique=True, max_length=64)
+    issued_by: str
+    issued_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)

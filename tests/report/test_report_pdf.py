@@ -21,37 +21,110 @@ def report(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[str], P
     folder = tmp_path_factory.mktemp("report")
     b = Bench(f"sqlite:///{folder / 'lab.db'}", folder)
     b("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator", "--quiet")
-    b("people", "add", "MO", "--name", "Mark Osei", "--role", "checker", "--role", "approver",
-      "--by", "AK", "--quiet")  # fmt: skip
+    b(
+        "people",
+        "add",
+        "MO",
+        "--name",
+        "Mark Osei",
+        "--role",
+        "checker",
+        "--role",
+        "approver",
+        "--by",
+        "AK",
+        "--quiet",
+    )
     b("init", str(SAMPLE), "--quiet")
-    b("record", "receive", "QC-2027-014-S01", "QC-2027-014-S02", "--on", "2027-01-06",
-      "--condition", "new, sealed carton", "--by", "AK", "--quiet")  # fmt: skip
+    b(
+        "record",
+        "receive",
+        "QC-2027-014-S01",
+        "QC-2027-014-S02",
+        "--on",
+        "2027-01-06",
+        "--condition",
+        "new, sealed carton",
+        "--by",
+        "AK",
+        "--quiet",
+    )
     for tag, channel, u in (("PT-03", "lowest_point_depth", "4 mm"), ("TQ-11", "cycle_count", "0")):
         b("equipment", "add", tag, "--description", f"{channel} sensor", "--quiet")
-        b("equipment", "calibrate", tag, "--channel", channel, "--certificate", f"VC-{tag}",
-          "--provider", "Vale Calibration Ltd", "--calibrated", "2026-06-01", "--due",
-          "2027-06-01", "--uncertainty", u, "--quiet")  # fmt: skip
-    b("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--deviation",
-      "tank topped up during the run", "--deviation-reason", "evaporation", "--approved-by",
-      "MO", "--quiet")  # fmt: skip
+        b(
+            "equipment",
+            "calibrate",
+            tag,
+            "--channel",
+            channel,
+            "--certificate",
+            f"VC-{tag}",
+            "--provider",
+            "Vale Calibration Ltd",
+            "--calibrated",
+            "2026-06-01",
+            "--due",
+            "2027-06-01",
+            "--uncertainty",
+            u,
+            "--quiet",
+        )
+    b(
+        "record",
+        "start",
+        RUN,
+        *START,
+        "--at",
+        "2027-01-12T16:05Z",
+        "--deviation",
+        "tank topped up during the run",
+        "--deviation-reason",
+        "evaporation",
+        "--approved-by",
+        "MO",
+        "--quiet",
+    )
     t0 = dt.datetime(2027, 1, 12, 16, 5, tzinfo=dt.UTC)
     rows = ["time,depth"]
     for m in range(4400):
         depth = 2000.0 if m in (600, 601) else 2100.0
         rows.append(f"{t0 + dt.timedelta(minutes=m):%Y-%m-%dT%H:%M:%SZ},{depth}")
     tank = b.write("tank.csv", "\n".join(rows) + "\n")
-    b("record", "import", RUN, str(tank), "--map", "depth[mm]=lowest_point_depth@PT-03",
-      "--by", "AK", "--quiet")  # fmt: skip
+    b(
+        "record",
+        "import",
+        RUN,
+        str(tank),
+        "--map",
+        "depth[mm]=lowest_point_depth@PT-03",
+        "--by",
+        "AK",
+        "--quiet",
+    )
     b("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
     b("record", "check", RUN, "--by", "MO", "--at", "2027-01-16T09:00Z", "--quiet")
     start = [a if a != "PT-03" else "TQ-11" for a in START]
     b("record", "start", KNOB, *start, "--at", "2027-01-12T11:00Z", "--quiet")
     k0 = dt.datetime(2027, 1, 12, 11, tzinfo=dt.UTC)
-    rig = b.write("rig.csv", "time,cycles\n" + "".join(
-        f"{k0 + dt.timedelta(minutes=c / 10):%Y-%m-%dT%H:%M:%SZ},{c}\n"
-        for c in range(0, 54_001, 1000)))  # fmt: skip
-    b("record", "import", KNOB, str(rig), "--map", "cycles[cycle]=cycle_count@TQ-11", "--by",
-      "AK", "--quiet")  # fmt: skip
+    rig = b.write(
+        "rig.csv",
+        "time,cycles\n"
+        + "".join(
+            f"{k0 + dt.timedelta(minutes=c / 10):%Y-%m-%dT%H:%M:%SZ},{c}\n"
+            for c in range(0, 54_001, 1000)
+        ),
+    )
+    b(
+        "record",
+        "import",
+        KNOB,
+        str(rig),
+        "--map",
+        "cycles[cycle]=cycle_count@TQ-11",
+        "--by",
+        "AK",
+        "--quiet",
+    )
     b("record", "finish", KNOB, "--by", "AK", "--at", "2027-01-16T05:05Z", "--quiet")
     b("judge", "--quiet", ok=False)
     pdf = folder / "out" / "report.pdf"
@@ -130,8 +203,10 @@ def test_editions_cautions_and_guidance_for_the_reader(report) -> None:  # type:
     assert "Safety cautions for the tests performed" in body
     assert "de-energise before handling or opening" in body
     assert "For anyone reusing the methods described here" in body
-    assert "the product standard, local codes and accredited or licensed practice take " \
-           "precedence over any value or wording here" in body  # fmt: skip
+    assert (
+        "the product standard, local codes and accredited or licensed practice take "
+        "precedence over any value or wording here" in body
+    )
 
 
 def test_plots_are_present(report) -> None:  # type: ignore[no-untyped-def]

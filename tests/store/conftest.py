@@ -61,6 +61,12 @@ class Bench:
             assert result.exit_code == 0, (args, result.stdout, result.stderr, result.exception)
         return result
 
+    def plain(self, *args: str):  # type: ignore[no-untyped-def]
+        """A command that takes no store (keys new, plan)."""
+        result = self.runner.invoke(app, list(args))
+        assert result.exit_code == 0, (args, result.stdout, result.stderr, result.exception)
+        return result
+
     def fail(self, *args: str, code: int = 1) -> str:
         """Run a command that must be refused; return its one error line."""
         result = self(*args, ok=False)

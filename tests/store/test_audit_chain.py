@@ -17,11 +17,31 @@ RUN = "water-8@ip-verification-1"
 @pytest.fixture
 def recorded(bench: Bench) -> Bench:
     bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
-    bench("record", "import", RUN, str(DATA / "loggers" / "tank-long.csv"), "--map",
-          "level[cm]=lowest_point_depth@PT-03", "--map", "water[degF]=water_temperature@PT-03",
-          "--by", "AK", "--quiet")  # fmt: skip
-    bench("record", "observe", RUN, "--photo", str(DATA / "photos" / "gland-after-immersion.png"),
-          "--ingress", "water:none", "--by", "AK", "--quiet")  # fmt: skip
+    bench(
+        "record",
+        "import",
+        RUN,
+        str(DATA / "loggers" / "tank-long.csv"),
+        "--map",
+        "level[cm]=lowest_point_depth@PT-03",
+        "--map",
+        "water[degF]=water_temperature@PT-03",
+        "--by",
+        "AK",
+        "--quiet",
+    )
+    bench(
+        "record",
+        "observe",
+        RUN,
+        "--photo",
+        str(DATA / "photos" / "gland-after-immersion.png"),
+        "--ingress",
+        "water:none",
+        "--by",
+        "AK",
+        "--quiet",
+    )
     return bench
 
 
@@ -38,8 +58,11 @@ def problems(bench: Bench) -> list[str]:
     result = bench("store", "check", ok=False)
     assert result.exit_code == 3, result.stderr
     assert "Traceback" not in result.stderr
-    return [ln.removeprefix("problem: ") for ln in result.stderr.splitlines()
-            if ln.startswith("problem: ")]  # fmt: skip
+    return [
+        ln.removeprefix("problem: ")
+        for ln in result.stderr.splitlines()
+        if ln.startswith("problem: ")
+    ]
 
 
 def test_an_untouched_store_checks_out(recorded: Bench) -> None:
@@ -68,8 +91,9 @@ def seq_of_anna(bench: Bench) -> int:
 def test_a_changed_audit_entry_is_found(recorded: Bench) -> None:
     seq = seq_of_anna(recorded)
     unlock_audit(recorded)
-    recorded.raw("UPDATE audit SET new_json = replace(new_json, 'Anna', 'Anne') WHERE seq = :s",
-                 s=seq)  # fmt: skip
+    recorded.raw(
+        "UPDATE audit SET new_json = replace(new_json, 'Anna', 'Anne') WHERE seq = :s", s=seq
+    )
     assert problems(recorded) == [
         f"audit entry {seq} (person.add person): content changed after it was recorded"
     ]

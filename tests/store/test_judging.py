@@ -33,12 +33,36 @@ def tank_csv(bench: Bench, dip: bool) -> str:
 
 def record(bench: Bench, dip: bool) -> None:
     bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
-    bench("record", "import", RUN, tank_csv(bench, dip), "--map",
-          "depth[mm]=lowest_point_depth@PT-03", "--map", "water[degC]=water_temperature@PT-03",
-          "--by", "AK", "--quiet")  # fmt: skip
+    bench(
+        "record",
+        "import",
+        RUN,
+        tank_csv(bench, dip),
+        "--map",
+        "depth[mm]=lowest_point_depth@PT-03",
+        "--map",
+        "water[degC]=water_temperature@PT-03",
+        "--by",
+        "AK",
+        "--quiet",
+    )
     for s in ("QC-2027-014-S01", "QC-2027-014-S02"):
-        bench("record", "observe", RUN, "--specimen", s, "--ingress", "water:none", "--function",
-              "pass", "--insulation", "2 Gohm", "--by", "AK", "--quiet")  # fmt: skip
+        bench(
+            "record",
+            "observe",
+            RUN,
+            "--specimen",
+            s,
+            "--ingress",
+            "water:none",
+            "--function",
+            "pass",
+            "--insulation",
+            "2 Gohm",
+            "--by",
+            "AK",
+            "--quiet",
+        )
     bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T16:40Z", "--quiet")
 
 
@@ -51,8 +75,10 @@ def test_a_failing_run_exits_3_and_says_why(bench: Bench) -> None:
         "  FAIL   water-8.depth: 2000 mm against >= 2053.7 mm; below the limit for about 2 min "
         "in the exposure, first at 2027-01-13 02:05:00Z; U = 4 mm (k = 2)"
     ) in result.stdout
-    assert "decision rule: guarded acceptance, w = 1 x U (ILAC-G8); agreed: client letter " \
-           "HH-QA-0112 of 2027-01-04" in result.stdout  # fmt: skip
+    assert (
+        "decision rule: guarded acceptance, w = 1 x U (ILAC-G8); agreed: client letter "
+        "HH-QA-0112 of 2027-01-04" in result.stdout
+    )
     assert result.stderr.strip().endswith(f"error: 1 run(s) did not pass: {RUN}")
 
 
@@ -81,7 +107,9 @@ def test_the_same_evidence_judged_again_adds_nothing_and_new_evidence_does(bench
     bench("judge", ok=False)  # no leak test recorded yet: no data
     bench("judge", ok=False)
     assert bench.sql("SELECT count(*) FROM judgement") == [(1,)]
-    sheet = bench.write("leak.toml", """\
+    sheet = bench.write(
+        "leak.toml",
+        """\
 [[leak_test]]
 specimen = "QC-2027-014-S01"
 start_pressure = "1200.00 mbar"
@@ -91,7 +119,8 @@ start_temperature = "21.4 degC"
 end_temperature = "21.4 degC"
 barometric_pressure = "1012 mbar"
 dead_volume = "45 mL"
-""")  # fmt: skip
+""",
+    )
     bench("record", "observe", RUN, "--sheet", str(sheet), "--by", "AK", "--quiet")
     bench("judge", ok=False)
     assert bench.sql("SELECT count(*) FROM judgement") == [(2,)]
@@ -127,9 +156,26 @@ def test_only_finished_runs_are_judged(bench: Bench) -> None:
 def test_endurance_reliability_is_an_interpretation(bench: Bench) -> None:
     run = "endurance-mode-selector-knob@aged-1"
     bench("equipment", "add", "TQ-11", "--description", "rig", "--quiet")
-    bench("equipment", "calibrate", "TQ-11", "--channel", "cycle_count", "--certificate", "C",
-          "--provider", "P", "--calibrated", "2026-08-10", "--due", "2027-08-10",
-          "--uncertainty", "0", "--k", "1", "--quiet")  # fmt: skip
+    bench(
+        "equipment",
+        "calibrate",
+        "TQ-11",
+        "--channel",
+        "cycle_count",
+        "--certificate",
+        "C",
+        "--provider",
+        "P",
+        "--calibrated",
+        "2026-08-10",
+        "--due",
+        "2027-08-10",
+        "--uncertainty",
+        "0",
+        "--k",
+        "1",
+        "--quiet",
+    )
     start = [a if a != "PT-03" else "TQ-11" for a in START]
     bench("record", "start", run, *start, "--at", "2027-01-12T11:00Z", "--quiet")
     t0 = dt.datetime(2027, 1, 12, 11, tzinfo=dt.UTC)
@@ -138,8 +184,17 @@ def test_endurance_reliability_is_an_interpretation(bench: Bench) -> None:
         for c in range(0, 54_001, 1000)
     ]
     path = bench.write("rig.csv", "\n".join(rows) + "\n")
-    bench("record", "import", run, str(path), "--map", "cycles[cycle]=cycle_count@TQ-11",
-          "--by", "AK", "--quiet")  # fmt: skip
+    bench(
+        "record",
+        "import",
+        run,
+        str(path),
+        "--map",
+        "cycles[cycle]=cycle_count@TQ-11",
+        "--by",
+        "AK",
+        "--quiet",
+    )
     bench("record", "finish", run, "--by", "AK", "--at", "2027-01-16T05:05Z", "--quiet")
     data = json.loads(bench("judge", run, "--json", ok=False).stdout)
     interpretation = data["runs"][0]["interpretation"]

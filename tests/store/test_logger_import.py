@@ -34,8 +34,18 @@ T0 = 1_799_769_900_000_000
 
 
 def test_long_file_with_offsets_is_converted_to_plan_units_and_utc(running: Bench) -> None:
-    result = running("record", "import", RUN, str(DATA / "tank-long.csv"), "--map", LEVEL,
-                     "--map", WATER, "--by", "AK")  # fmt: skip
+    result = running(
+        "record",
+        "import",
+        RUN,
+        str(DATA / "tank-long.csv"),
+        "--map",
+        LEVEL,
+        "--map",
+        WATER,
+        "--by",
+        "AK",
+    )
     assert result.stdout.strip().startswith(
         f"{RUN}: imported 6 samples from tank-long.csv "
         "(2027-01-12 16:05:00Z to 2027-01-12 16:05:02Z)"
@@ -53,8 +63,9 @@ def test_long_file_with_offsets_is_converted_to_plan_units_and_utc(running: Benc
 
 def test_the_original_file_is_kept_byte_for_byte_with_its_reading(running: Bench) -> None:
     path = DATA / "tank-long.csv"
-    running("record", "import", RUN, str(path), "--map", LEVEL, "--map", WATER, "--by", "AK",
-            "--quiet")  # fmt: skip
+    running(
+        "record", "import", RUN, str(path), "--map", LEVEL, "--map", WATER, "--by", "AK", "--quiet"
+    )
     content, sha, tool, options = running.sql(
         "SELECT content, sha256, tool_version, read_options_json FROM raw_file"
     )[0]
@@ -75,10 +86,28 @@ def test_the_original_file_is_kept_byte_for_byte_with_its_reading(running: Bench
 
 
 def test_wide_file_with_zone_bom_decimal_comma_and_gaps(running: Bench) -> None:
-    running("record", "import", RUN, str(DATA / "tank-wide-de.csv"), "--time-column", "Zeit",
-            "--delimiter", ";", "--decimal", ",", "--tz", "Europe/Berlin", "--skip-unmapped",
-            "--map", "Pegel[cm]=lowest_point_depth@PT-03",
-            "--map", "Wasser[degC]=water_temperature@PT-03", "--by", "AK", "--quiet")  # fmt: skip
+    running(
+        "record",
+        "import",
+        RUN,
+        str(DATA / "tank-wide-de.csv"),
+        "--time-column",
+        "Zeit",
+        "--delimiter",
+        ";",
+        "--decimal",
+        ",",
+        "--tz",
+        "Europe/Berlin",
+        "--skip-unmapped",
+        "--map",
+        "Pegel[cm]=lowest_point_depth@PT-03",
+        "--map",
+        "Wasser[degC]=water_temperature@PT-03",
+        "--by",
+        "AK",
+        "--quiet",
+    )
     # Berlin is UTC+1 in January; the empty cell at 17:05:10 is no reading.
     assert samples(running) == [
         ("lowest_point_depth", T0, 2054.0),
@@ -91,9 +120,18 @@ def test_wide_file_with_zone_bom_decimal_comma_and_gaps(running: Bench) -> None:
 
 def test_a_bad_line_mid_file_is_named_and_nothing_is_kept(running: Bench) -> None:
     audit_before = running.sql("SELECT count(*) FROM audit")
-    line = running.fail("record", "import", RUN, str(DATA / "tank-bad-line.csv"), "--map",
-                        "level[mm]=lowest_point_depth@PT-03", "--map",
-                        "water[degC]=water_temperature@PT-03", "--by", "AK")  # fmt: skip
+    line = running.fail(
+        "record",
+        "import",
+        RUN,
+        str(DATA / "tank-bad-line.csv"),
+        "--map",
+        "level[mm]=lowest_point_depth@PT-03",
+        "--map",
+        "water[degC]=water_temperature@PT-03",
+        "--by",
+        "AK",
+    )
     assert (
         line == f"error: {DATA / 'tank-bad-line.csv'}:5003: value: '20S.4' is not a finite number"
     )
@@ -112,8 +150,18 @@ def test_a_failure_while_writing_samples_leaves_nothing(running: Bench) -> None:
         f"CREATE TABLE sample (raw_file_id {uuid_type}, seq BIGINT, channel INTEGER, "
         "t_us BIGINT, value FLOAT, CHECK (value <> 2054))"
     )
-    line = running.fail("record", "import", RUN, str(DATA / "tank-long.csv"), "--map", LEVEL,
-                        "--map", WATER, "--by", "AK")  # fmt: skip
+    line = running.fail(
+        "record",
+        "import",
+        RUN,
+        str(DATA / "tank-long.csv"),
+        "--map",
+        LEVEL,
+        "--map",
+        WATER,
+        "--by",
+        "AK",
+    )
     assert "refused the change" in line
     running.raw("DROP TABLE sample")
     running.raw("ALTER TABLE sample_away RENAME TO sample")
@@ -246,8 +294,9 @@ def test_bad_channel_maps_are_refused(running: Bench, mapping: str, expected: st
 def test_an_instrument_not_recorded_on_the_run_is_refused(running: Bench) -> None:
     running("equipment", "add", "PT-04", "--description", "spare transmitter", "--quiet")
     path = write(running, "time,level\n2027-01-12T16:05:00Z,205.4\n")
-    line = running.fail("record", "import", RUN, path, "--map",
-                        "level[cm]=lowest_point_depth@PT-04", "--by", "AK")  # fmt: skip
+    line = running.fail(
+        "record", "import", RUN, path, "--map", "level[cm]=lowest_point_depth@PT-04", "--by", "AK"
+    )
     assert line == (
         "error: --map: PT-04 was not recorded on run water-8@ip-verification-1 with a "
         "lowest_point_depth calibration (name the equipment when starting the run, or map "
@@ -270,16 +319,36 @@ def test_missing_file_unknown_run_and_unstarted_run(running: Bench) -> None:
 
 
 def test_channels_can_name_the_specimen_they_measure(bench: Bench) -> None:
-    bench("equipment", "add", "TT-07", "--description", "two-channel surface thermometer",
-          "--quiet")  # fmt: skip
-    bench("equipment", "calibrate", "TT-07", "--channel", "specimen_temperature", "--certificate",
-          "VC-2026-201", "--provider", "Vale Calibration Ltd", "--calibrated", "2026-09-01",
-          "--due", "2027-09-01", "--uncertainty", "0.5 K", "--quiet")  # fmt: skip
+    bench(
+        "equipment", "add", "TT-07", "--description", "two-channel surface thermometer", "--quiet"
+    )
+    bench(
+        "equipment",
+        "calibrate",
+        "TT-07",
+        "--channel",
+        "specimen_temperature",
+        "--certificate",
+        "VC-2026-201",
+        "--provider",
+        "Vale Calibration Ltd",
+        "--calibrated",
+        "2026-09-01",
+        "--due",
+        "2027-09-01",
+        "--uncertainty",
+        "0.5 K",
+        "--quiet",
+    )
     start = [*START, "--equipment", "TT-07"]
     bench("record", "start", RUN, *start, "--at", "2027-01-12T16:05Z", "--quiet")
     path = write(bench, "time,s1,s2\n2027-01-12T16:05:00Z,15.5,15.9\n")
-    maps = ["--map", "s1[degC]=specimen_temperature@TT-07#QC-2027-014-S01",
-            "--map", "s2[degC]=specimen_temperature@TT-07#QC-2027-014-S02"]  # fmt: skip
+    maps = [
+        "--map",
+        "s1[degC]=specimen_temperature@TT-07#QC-2027-014-S01",
+        "--map",
+        "s2[degC]=specimen_temperature@TT-07#QC-2027-014-S02",
+    ]
     bench("record", "import", RUN, path, *maps, "--by", "AK", "--quiet")
     rows = bench.sql(
         "SELECT c.source, s.serial FROM logger_channel c JOIN specimen s "

@@ -85,16 +85,40 @@ def test_a_sheet_is_stored_in_plan_units_with_its_photo(bench: Bench) -> None:
 def test_the_same_photo_twice_is_stored_once(bench: Bench) -> None:
     started(bench)
     for _ in range(2):
-        bench("record", "observe", RUN, "--photo", str(PHOTO), "--checkpoint", "after",
-              "--by", "AK", "--quiet")  # fmt: skip
+        bench(
+            "record",
+            "observe",
+            RUN,
+            "--photo",
+            str(PHOTO),
+            "--checkpoint",
+            "after",
+            "--by",
+            "AK",
+            "--quiet",
+        )
     assert bench.sql("SELECT count(*) FROM attachment") == [(1,)]
     assert bench.sql("SELECT count(*) FROM observation") == [(2,)]
 
 
 def test_options_record_ingress_function_insulation_and_torque(bench: Bench) -> None:
     started(bench)
-    bench("record", "observe", RUN, "--specimen", "QC-2027-014-S02", "--ingress", "water:none",
-          "--function", "pass", "--insulation", "420 Mohm", "--by", "AK", "--quiet")  # fmt: skip
+    bench(
+        "record",
+        "observe",
+        RUN,
+        "--specimen",
+        "QC-2027-014-S02",
+        "--ingress",
+        "water:none",
+        "--function",
+        "pass",
+        "--insulation",
+        "420 Mohm",
+        "--by",
+        "AK",
+        "--quiet",
+    )
     kinds = [k for (k,) in bench.sql("SELECT kind FROM observation ORDER BY kind")]
     assert kinds == ["function", "ingress", "insulation"]
 

@@ -1,0 +1,632 @@
+"""Sign-off: the campaign manifest, signatures, the lock, amendments, issued PDFs, verify.
+
+The manifest lists every record of a campaign as ``(kind, id, label, hash)``, each hash over
+the record's canonical JSON (raw files and photos over their actual bytes, samples in
+chunks of CHUNK_ROWS rows), and a SHA-256 root over the sorted items. It reads the same
+on SQLite and PostgreSQL. Signatures cover the root, the role, the signer and the time;
+they do not depend on any PDF.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import hashlib
+import json
+import uuid
+from dataclasses import dataclass
+from typing import Any
+
+import sqlalchemy as sa
+from sqlmodel import Session, col, select
+
+from testplan import keys
+from testplan.errors import CriteriaFailedError, RecordError
+from testplan.store import audit
+from testplan.store.records import find_campaign, find_person, require_role, roles_of
+from testplan.store.tables import (
+    Amendment,
+    Attachment,
+    Calibration,
+    CampaignRecord,
+    Deviation,
+    Equipment,
+    Judgement,
+    LoggerChannel,
+    Manifest,
+    Observation,
+    Person,
+    PersonKey,
+    PlanRevision,
+    RawFile,
+    ReportIssue,
+    RunEquipment,
+    RunRecord,
+    RunSpecimen,
+    Signature,
+    SpecimenRecord,
+    VerdictRecord,
+    utc_now,
+)
+
+CHUNK_ROWS = 100_000
+ROLES = {"prepared": "preparer", "reviewed": "reviewer", "approved": "approver"}
+ORDER = ("prepared", "reviewed", "approved")
+
+
+def _h(value: Any) -> str:
+    return hashlib.sha256(audit.canonical(value).encode()).hexdigest()
+
+
+def _row(obj: Any, *skip: str) -> dict[str, Any]:
+    """A record's columns as plain values (bytes become their SHA-256)."""
+    out = {}
+    for column in obj.__table__.columns:
+        if column.name in skip:
+            continue
+        out[column.name] = getattr(obj, column.name)
+    return out
+
+
+@dataclass(frozen=True)
+class Item:
+    kind: str
+    id: str
+    label: str
+    hash: str
+
+    def to_json(self) -> list[str]:
+        return [self.kind, self.id, self.label, self.hash]
+
+
+def _sample_chunks(session: Session, raw: RawFile) -> list[Item]:
+    import numpy as np
+
+    from testplan.store.samples import digest_arrays
+
+    rows = (
+        session.connection()
+        .execute(
+            sa.text(
+                "SELECT seq, t_us, channel, value FROM sample WHERE raw_file_id = :r ORDER BY seq"
+            ).bindparams(sa.bindparam("r", type_=sa.Uuid())),
+            {"r": raw.id},
+        )
+        .all()
+    )
+    data = np.asarray(rows, dtype=np.float64).reshape(-1, 4)
+    items = []
+    for n, start in enumerate(range(0, max(len(data), 1), CHUNK_ROWS)):
+        block = data[start : start + CHUNK_ROWS]
+        digest = digest_arrays(
+            block[:, 1].astype(np.int64), block[:, 2].astype(np.int32), block[:, 3]
+        )
+        seqs = block[:, 0].astype(np.int64)
+        first, last = (int(seqs[0]), int(seqs[-1])) if len(seqs) else (0, -1)
+        items.append(
+            Item(
+                "sample_chunk",
+                f"{raw.id}:{n}",
+                f"samples of {raw.name}, chunk {n + 1} (rows {first + 1} to {last + 1})",
+                _h([digest, first, last, len(block)]),
+            )
+        )
+    return items
+
+
+def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
+    """Every record of the campaign, hashed. The same data gives the same items anywhere."""
+    items: list[Item] = []
+
+    def add(kind: str, obj: Any, label: str, body: dict[str, Any]) -> None:
+        items.append(Item(kind, str(obj.id), label, _h(body)))
+
+    add("campaign", campaign, f"campaign {campaign.reference}", _row(campaign))
+    for rev in session.exec(select(PlanRevision).where(PlanRevision.campaign_id == campaign.id)):
+        add("plan_revision", rev, f"plan revision {rev.number}", _row(rev))
+    specimens = {
+        s.id: s
+        for s in session.exec(
+            select(SpecimenRecord).where(SpecimenRecord.campaign_id == campaign.id)
+        )
+    }
+    for s in specimens.values():
+        add("specimen", s, f"specimen {s.serial}", _row(s))
+    runs = session.exec(select(RunRecord).where(RunRecord.campaign_id == campaign.id)).all()
+    people: set[uuid.UUID] = set()
+    calibrations: set[uuid.UUID] = set()
+    for run in runs:
+        members = sorted(
+            str(link.specimen_id)
+            for link in session.exec(select(RunSpecimen).where(RunSpecimen.run_id == run.id))
+        )
+        add("run", run, f"run {run.key}", {**_row(run), "specimens": members})
+        people.update(p for p in (run.operator_id, run.checker_id) if p)
+        for use in session.exec(select(RunEquipment).where(RunEquipment.run_id == run.id)):
+            add("run_equipment", use, f"equipment used on {run.key}", _row(use))
+            calibrations.add(use.calibration_id)
+        for d in session.exec(select(Deviation).where(Deviation.run_id == run.id)):
+            add("deviation", d, f"deviation on {run.key}: {d.description[:40]}", _row(d))
+            people.update((d.approved_by_id, d.recorded_by_id))
+        for raw in session.exec(select(RawFile).where(RawFile.run_id == run.id)):
+            body = _row(raw, "content")
+            body["content_sha256"] = hashlib.sha256(raw.content).hexdigest()
+            add("raw_file", raw, f"raw file {raw.name} of {run.key}", body)
+            people.add(raw.operator_id)
+            for ch in session.exec(
+                select(LoggerChannel).where(LoggerChannel.raw_file_id == raw.id)
+            ):
+                add("logger_channel", ch, f"channel {ch.source} of {raw.name}", _row(ch))
+                if ch.calibration_id:
+                    calibrations.add(ch.calibration_id)
+            items.extend(_sample_chunks(session, raw))
+        for o in session.exec(select(Observation).where(Observation.run_id == run.id)):
+            serial = specimens[o.specimen_id].serial if o.specimen_id in specimens else "run"
+            add("observation", o, f"observation {o.kind} on {serial} in {run.key}", _row(o))
+            people.add(o.recorded_by_id)
+            if o.attachment_id:
+                att = session.get(Attachment, o.attachment_id)
+                assert att is not None
+                body = _row(att, "content")
+                body["content_sha256"] = hashlib.sha256(att.content).hexdigest()
+                add("attachment", att, f"photo {att.name}", body)
+        for j in session.exec(select(Judgement).where(Judgement.run_id == run.id)):
+            add("judgement", j, f"judgement of {run.key}", _row(j))
+            for v in session.exec(select(VerdictRecord).where(VerdictRecord.judgement_id == j.id)):
+                who = specimens[v.specimen_id].serial if v.specimen_id in specimens else "all"
+                add("verdict", v, f"verdict {v.criterion_key} ({who}) of {run.key}", _row(v))
+    for cid in calibrations:
+        cal = session.get(Calibration, cid)
+        assert cal is not None
+        eq = session.get(Equipment, cal.equipment_id)
+        assert eq is not None
+        add(
+            "calibration",
+            cal,
+            f"calibration {cal.certificate} of {eq.tag} ({cal.channel})",
+            {**_row(cal), "equipment": _row(eq)},
+        )
+    for pid in people:
+        person = session.get(Person, pid)
+        assert person is not None
+        add(
+            "person",
+            person,
+            f"person {person.initials}",
+            {**_row(person, "public_key"), "roles": sorted(roles_of(session, person))},
+        )
+    items.sort(key=lambda i: (i.kind, i.id))
+    return items
+
+
+def root_of(items: list[Item]) -> str:
+    return _h([i.to_json() for i in items])
+
+
+# --- state --------------------------------------------------------------------------------
+
+
+def _amended(session: Session, manifest: Manifest) -> bool:
+    found = session.exec(
+        select(Amendment).where(Amendment.supersedes_manifest_id == manifest.id)
+    ).first()
+    return found is not None
+
+
+def current_manifest(session: Session, campaign: CampaignRecord) -> Manifest | None:
+    return session.exec(
+        select(Manifest)
+        .where(Manifest.campaign_id == campaign.id)
+        .order_by(col(Manifest.created_at).desc())
+    ).first()
+
+
+def signatures_of(session: Session, manifest: Manifest) -> dict[str, Signature]:
+    rows = session.exec(select(Signature).where(Signature.manifest_id == manifest.id)).all()
+    return {s.role: s for s in rows}
+
+
+def approved_manifest(session: Session, campaign_id: uuid.UUID) -> Manifest | None:
+    """The manifest that locks the campaign: approved and not amended since."""
+    manifest = session.exec(
+        select(Manifest)
+        .join(Signature, col(Signature.manifest_id) == col(Manifest.id))
+        .where(Manifest.campaign_id == campaign_id, Signature.role == "approved")
+        .order_by(col(Manifest.created_at).desc())
+    ).first()
+    if manifest is None:
+        return None
+    amended = session.exec(
+        select(Amendment).where(Amendment.supersedes_manifest_id == manifest.id)
+    ).first()
+    return None if amended else manifest
+
+
+def ensure_open(session: Session, campaign_id: uuid.UUID) -> None:
+    """Refuse a change to an approved campaign (called by every recording function)."""
+    if approved_manifest(session, campaign_id) is not None:
+        camp = session.get(CampaignRecord, campaign_id)
+        ref = camp.reference if camp else "the campaign"
+        raise RecordError(
+            f"{ref} is approved and locked; its records cannot change",
+            fix=f"record the reason with `testplan amend {ref} --why ...`, then sign again",
+        )
+
+
+def report_revision(session: Session, campaign_id: uuid.UUID) -> int:
+    n = session.exec(
+        select(sa.func.count()).select_from(Amendment).where(Amendment.campaign_id == campaign_id)
+    ).one()
+    return 1 + int(n)
+
+
+# --- keys ---------------------------------------------------------------------------------
+
+
+def register_key(session: Session, *, initials: str, public_b64: str, actor: str) -> PersonKey:
+    person = find_person(session, initials, key="PERSON")
+    fp = keys.fingerprint(public_b64)
+    if session.exec(select(PersonKey).where(PersonKey.fingerprint == fp)).first():
+        raise RecordError(f"key {fp[:16]} is already registered", key="--public")
+    row = PersonKey(person_id=person.id, public_key=public_b64, fingerprint=fp, registered_by=actor)
+    session.add(row)
+    old = person.public_key
+    person.public_key = public_b64
+    session.add(person)
+    session.flush()
+    audit.append(
+        session,
+        actor=actor,
+        action="key.register",
+        entity="person_key",
+        entity_id=row.id,
+        old={"public_key": old},
+        new={"person": person.initials, "fingerprint": fp},
+    )
+    return row
+
+
+# --- signing ------------------------------------------------------------------------------
+
+
+def message(root: str, role: str, reference: str, initials: str, at: dt.datetime) -> bytes:
+    return audit.canonical(
+        {
+            "testplan_signoff": 1,
+            "root": root,
+            "role": role,
+            "campaign": reference,
+            "signer": initials,
+            "signed_at": at.astimezone(dt.UTC).isoformat(),
+        }
+    ).encode()
+
+
+def _ready(session: Session, campaign: CampaignRecord) -> None:
+    """Every run carried out is finished, checked by a second person and judged."""
+    runs = session.exec(
+        select(RunRecord).where(
+            RunRecord.campaign_id == campaign.id, col(RunRecord.started_at).is_not(None)
+        )
+    ).all()
+    if not runs:
+        raise RecordError(f"{campaign.reference} has no run carried out to sign for")
+    for run in runs:
+        if run.state != "checked":
+            raise RecordError(
+                f"run {run.key} is {run.state}; every run must be finished and its data "
+                "checked before sign-off",
+                fix=f"`testplan record check {run.key}`",
+            )
+        if session.exec(select(Judgement).where(Judgement.run_id == run.id)).first() is None:
+            raise RecordError(f"run {run.key} is not judged", fix="run `testplan judge`")
+
+
+def _differences(stored: list[list[str]], now: list[Item], *, only_stored: bool) -> list[str]:
+    """What changed between a stored manifest and the records now, named."""
+    before = {(k, i): (label, h) for k, i, label, h in stored}
+    after = {(x.kind, x.id): (x.label, x.hash) for x in now}
+    out = []
+    for key, (label, h) in sorted(before.items()):
+        if key not in after:
+            out.append(f"{label}: deleted")
+        elif after[key][1] != h:
+            out.append(f"{label}: changed")
+    if not only_stored:
+        for key, (label, _) in sorted(after.items()):
+            if key not in before:
+                out.append(f"{label}: added")
+    return out
+
+
+@dataclass(frozen=True)
+class Signed:
+    role: str
+    root: str
+    initials: str
+    fingerprint: str
+    manifest_items: int
+
+
+def sign(
+    session: Session,
+    *,
+    campaign: str,
+    role: str,
+    initials: str,
+    private_key: Any,
+) -> Signed:
+    """Sign the campaign's records in ``role`` (prepared, reviewed, approved)."""
+    if role not in ROLES:
+        raise RecordError(
+            f"unknown role {role!r}", key="--role", fix="prepared, reviewed or approved"
+        )
+    camp = find_campaign(session, campaign)
+    ensure_open(session, camp.id)
+    person = require_role(session, initials, ROLES[role], key="--as")
+    public = keys.public_of(private_key)
+    key_row = session.exec(
+        select(PersonKey).where(
+            PersonKey.person_id == person.id, PersonKey.fingerprint == keys.fingerprint(public)
+        )
+    ).first()
+    if key_row is None:
+        raise RecordError(
+            f"this key is not registered for {person.name} ({person.initials})",
+            key="--key",
+            fix=f"register its public key with `testplan keys register {person.initials}`",
+        )
+    _ready(session, camp)
+    items = compute_items(session, camp)
+    root = root_of(items)
+    manifest = current_manifest(session, camp)
+    existing = signatures_of(session, manifest) if manifest else {}
+    if manifest is not None and _amended(session, manifest):
+        manifest, existing = None, {}  # superseded: sign-off starts again
+    if role == "prepared":
+        if manifest is not None and existing and manifest.root == root and "prepared" in existing:
+            raise RecordError("already prepared; the records have not changed since", key="--role")
+        manifest = Manifest(
+            campaign_id=camp.id,
+            root=root,
+            created_by=person.initials,
+            body_json=audit.canonical([i.to_json() for i in items]),
+        )
+        session.add(manifest)
+        session.flush()
+        existing = {}
+    else:
+        needed = ORDER[: ORDER.index(role)]
+        missing = [r for r in needed if r not in existing]
+        if manifest is None or missing:
+            raise RecordError(
+                f"cannot sign as {role} before the campaign is {' and '.join(missing or needed)}",
+                key="--role",
+            )
+        if role in existing:
+            raise RecordError(f"already {role}", key="--role")
+        if manifest.root != root:
+            changed = _differences(json.loads(manifest.body_json), items, only_stored=False)
+            raise RecordError(
+                f"the records changed after they were prepared ({'; '.join(changed[:3])}); "
+                "the earlier signatures no longer cover them",
+                key="--role",
+                fix="sign again from --role prepared",
+            )
+    signers = {s.person_id for s in existing.values()}
+    if person.id in signers:
+        raise RecordError(
+            f"{person.name} ({person.initials}) already signed this campaign in another role; "
+            "prepared, reviewed and approved need three different people",
+            key="--as",
+        )
+    at = utc_now()
+    sig = keys.sign(private_key, message(root, role, camp.reference, person.initials, at))
+    row = Signature(
+        manifest_id=manifest.id,
+        role=role,
+        person_id=person.id,
+        key_id=key_row.id,
+        signed_at=at,
+        signature=sig,
+    )
+    session.add(row)
+    session.flush()
+    audit.append(
+        session,
+        actor=person.initials,
+        action=f"signoff.{role}",
+        entity="signature",
+        entity_id=row.id,
+        campaign_id=camp.id,
+        new={"root": root, "role": role, "fingerprint": key_row.fingerprint},
+    )
+    return Signed(role, root, person.initials, key_row.fingerprint, len(items))
+
+
+def amend(session: Session, *, campaign: str, why: str, by: str) -> Amendment:
+    camp = find_campaign(session, campaign)
+    manifest = approved_manifest(session, camp.id)
+    if manifest is None:
+        raise RecordError(
+            f"{camp.reference} is not approved; nothing to amend",
+            fix="change it directly; amendments are for approved campaigns",
+        )
+    if not why.strip():
+        raise RecordError("give the reason for the amendment", key="--why")
+    person = find_person(session, by)
+    row = Amendment(
+        campaign_id=camp.id,
+        supersedes_manifest_id=manifest.id,
+        reason=why,
+        requested_by=person.initials,
+    )
+    session.add(row)
+    session.flush()
+    audit.append(
+        session,
+        actor=person.initials,
+        action="campaign.amend",
+        entity="amendment",
+        entity_id=row.id,
+        campaign_id=camp.id,
+        why=why,
+        old={"manifest": manifest.root},
+        new={"revision": report_revision(session, camp.id)},
+    )
+    return row
+
+
+# --- issuing and verifying ----------------------------------------------------------------
+
+
+@dataclass
+class SignOffState:
+    """What a report prints about sign-off."""
+
+    manifest_root: str | None
+    signers: list[tuple[str, str, str, str]]  # role, name (initials), signed at, fingerprint
+    approved: bool
+    revision: int
+    replaces: str | None
+
+
+def signoff_state(session: Session, campaign: CampaignRecord) -> SignOffState:
+    manifest = current_manifest(session, campaign)
+    revision = report_revision(session, campaign.id)
+    replaces = None
+    last_amend = session.exec(
+        select(Amendment)
+        .where(Amendment.campaign_id == campaign.id)
+        .order_by(col(Amendment.at).desc())
+    ).first()
+    if last_amend is not None:
+        replaces = (
+            f"revision {revision - 1} (amended {last_amend.at:%Y-%m-%d}: {last_amend.reason})"
+        )
+    if manifest is None or (last_amend and last_amend.supersedes_manifest_id == manifest.id):
+        return SignOffState(None, [], False, revision, replaces)
+    sigs = signatures_of(session, manifest)
+    signers = []
+    for role in ORDER:
+        if role in sigs:
+            s = sigs[role]
+            p = session.get(Person, s.person_id)
+            k = session.get(PersonKey, s.key_id)
+            assert p is not None and k is not None
+            signers.append(
+                (
+                    role,
+                    f"{p.name} ({p.initials})",
+                    f"{s.signed_at:%Y-%m-%d %H:%M UTC}",
+                    k.fingerprint,
+                )
+            )
+    return SignOffState(manifest.root, signers, "approved" in sigs, revision, replaces)
+
+
+def record_issue(
+    session: Session, *, campaign: CampaignRecord, pdf_sha256: str, report_number: str, by: str
+) -> ReportIssue | None:
+    """Keep the issued PDF's SHA-256 when the campaign is approved (drafts are not issued)."""
+    manifest = approved_manifest(session, campaign.id)
+    if manifest is None:
+        return None
+    row = ReportIssue(
+        campaign_id=campaign.id,
+        manifest_id=manifest.id,
+        report_number=report_number,
+        revision=report_revision(session, campaign.id),
+        pdf_sha256=pdf_sha256,
+        issued_by=by,
+    )
+    session.add(row)
+    session.flush()
+    audit.append(
+        session,
+        actor=by,
+        action="report.issue",
+        entity="report_issue",
+        entity_id=row.id,
+        campaign_id=campaign.id,
+        new={"pdf_sha256": pdf_sha256, "revision": row.revision, "root": manifest.root},
+    )
+    return row
+
+
+@dataclass
+class Verification:
+    ok: bool
+    lines: list[str]
+
+
+def verify(session: Session, *, pdf_sha256: str, claimed: dict[str, Any]) -> Verification:
+    """Check a PDF against the store: issued record, signatures, and the records themselves."""
+    problems: list[str] = []
+    lines: list[str] = []
+    issue = session.exec(select(ReportIssue).where(ReportIssue.pdf_sha256 == pdf_sha256)).first()
+    root = claimed.get("manifest_root")
+    if issue is None:
+        problems.append(
+            "this PDF is not an issued report of this store: its SHA-256 matches no "
+            "issued PDF (changed after issue, or never issued)"
+        )
+        manifest = (
+            session.exec(select(Manifest).where(Manifest.root == root)).first() if root else None
+        )
+    else:
+        manifest = session.get(Manifest, issue.manifest_id)
+        lines.append(
+            f"PDF: issued {issue.report_number} revision {issue.revision} on "
+            f"{issue.issued_at:%Y-%m-%d %H:%M UTC}"
+        )
+    if manifest is None:
+        problems.append("no signed manifest in the store matches this report")
+        return Verification(False, lines + [f"problem: {p}" for p in problems])
+    camp = session.get(CampaignRecord, manifest.campaign_id)
+    assert camp is not None
+    stored = json.loads(manifest.body_json)
+    if _h(stored) != manifest.root:
+        problems.append("the stored manifest no longer matches its root (changed behind the tool)")
+    sigs = signatures_of(session, manifest)
+    for role in ORDER:
+        s = sigs.get(role)
+        if s is None:
+            problems.append(f"no {role} signature")
+            continue
+        person = session.get(Person, s.person_id)
+        key = session.get(PersonKey, s.key_id)
+        if person is None or key is None or key.person_id != person.id:
+            problems.append(f"{role} signature: its key is not registered for the signer")
+            continue
+        msg = message(manifest.root, role, camp.reference, person.initials, s.signed_at)
+        if not keys.verify(key.public_key, msg, s.signature):
+            problems.append(
+                f"{role} signature of {person.initials}: does not verify with the "
+                f"registered key {key.fingerprint[:16]}"
+            )
+        elif ROLES[role] not in roles_of(session, person):
+            problems.append(
+                f"{role} signature of {person.initials}: not authorised as {ROLES[role]}"
+            )
+        else:
+            lines.append(f"{role}: {person.name} ({person.initials}), key {key.fingerprint[:16]}")
+    amendment = session.exec(
+        select(Amendment).where(Amendment.supersedes_manifest_id == manifest.id)
+    ).first()
+    now = compute_items(session, camp)
+    changed = _differences(stored, now, only_stored=amendment is not None)
+    problems.extend(changed)
+    if amendment is not None:
+        lines.append(
+            f"superseded: amended {amendment.at:%Y-%m-%d} ({amendment.reason}); a later "
+            "revision replaces this report"
+        )
+    lines.append(f"manifest root {manifest.root} over {len(stored)} records")
+    ok = not problems
+    return Verification(ok, lines + [f"problem: {p}" for p in problems])
+
+
+def raise_if_failed(result: Verification) -> None:
+    if not result.ok:
+        n = sum(1 for ln in result.lines if ln.startswith("problem: "))
+        raise CriteriaFailedError(f"verification failed: {n} problem(s)")

@@ -1,0 +1,247 @@
+"""Sign-off, the lock, amendments and `testplan verify`: what is signed cannot change unseen."""
+
+from __future__ import annotations
+
+import datetime as dt
+from pathlib import Path
+
+import pytest
+from pypdf import PdfReader
+
+from testplan.keys import fingerprint, new_private_pem
+
+from .conftest import PG_URL, START, Bench, fresh_postgres_database
+
+RUN = "water-8@ip-verification-1"
+PASS = "a demo passphrase"
+
+
+@pytest.fixture
+def judged(bench: Bench, monkeypatch: pytest.MonkeyPatch) -> Bench:
+    """One run recorded, checked and judged; RP, LV, MO hold registered keys."""
+    monkeypatch.setenv("TESTPLAN_KEY_PASSPHRASE", PASS)
+    bench("people", "add", "RP", "--name", "Rita Pereira", "--role", "preparer", "--quiet")
+    bench(
+        "people",
+        "add",
+        "LV",
+        "--name",
+        "Lars Vik",
+        "--role",
+        "reviewer",
+        "--role",
+        "preparer",
+        "--quiet",
+    )
+    bench("people", "authorise", "MO", "--role", "approver", "--quiet")
+    for who in ("RP", "LV", "MO"):
+        result = bench.plain("keys", "new", who, "--out", str(bench.folder / f"{who}.pem"))
+        assert result.stdout.startswith(f"{who}: key ")
+        bench(
+            "keys",
+            "register",
+            who,
+            "--public",
+            str(bench.folder / f"{who}.pem.pub"),
+            "--by",
+            "MO",
+            "--quiet",
+        )
+    bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
+    t0 = dt.datetime(2027, 1, 12, 16, 5, tzinfo=dt.UTC)
+    rows = ["time,depth"] + [
+        f"{t0 + dt.timedelta(minutes=m):%Y-%m-%dT%H:%M:%SZ},2100" for m in range(4400)
+    ]
+    tank = bench.write("tank.csv", "\n".join(rows) + "\n")
+    bench(
+        "record",
+        "import",
+        RUN,
+        str(tank),
+        "--map",
+        "depth[mm]=lowest_point_depth@PT-03",
+        "--by",
+        "AK",
+        "--quiet",
+    )
+    bench(
+        "record",
+        "observe",
+        RUN,
+        "--specimen",
+        "QC-2027-014-S01",
+        "--ingress",
+        "water:none",
+        "--by",
+        "AK",
+        "--quiet",
+    )
+    bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
+    bench("record", "check", RUN, "--by", "MO", "--at", "2027-01-16T09:00Z", "--quiet")
+    bench("judge", "--quiet", ok=False)
+    return bench
+
+
+def sign(b: Bench, role: str, who: str, key: str | None = None) -> list[str]:
+    return [
+        "sign",
+        "QC-2027-014",
+        "--role",
+        role,
+        "--as",
+        who,
+        "--key",
+        str(b.folder / f"{key or who}.pem"),
+    ]
+
+
+def approve_and_issue(b: Bench, name: str = "report.pdf") -> Path:
+    b(*sign(b, "prepared", "RP"), "--quiet")
+    b(*sign(b, "reviewed", "LV"), "--quiet")
+    b(*sign(b, "approved", "MO"), "--quiet")
+    pdf = b.folder / name
+    b("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01", "--quiet")
+    return pdf
+
+
+def problems(b: Bench, pdf: Path) -> list[str]:
+    result = b("verify", str(pdf), ok=False)
+    assert result.exit_code == 3, (result.stdout, result.stderr)
+    assert "Traceback" not in result.stderr
+    return [
+        ln.removeprefix("problem: ")
+        for ln in result.stderr.splitlines()
+        if ln.startswith("problem: ")
+    ]
+
+
+def test_a_signed_report_verifies(judged: Bench) -> None:
+    pdf = approve_and_issue(judged)
+    result = judged("verify", str(pdf))
+    assert result.stdout.splitlines()[-1] == f"verified: {pdf}"
+    assert "approved: Mark Osei (MO)" in result.stdout
+    assert "DRAFT" not in " ".join(PdfReader(pdf).pages[0].extract_text().split())
+
+
+def test_unauthorised_or_repeated_signers_are_refused(judged: Bench) -> None:
+    assert "Anna Kowal (AK) is not authorised as preparer" in judged.fail(
+        *sign(judged, "prepared", "AK", key="RP")
+    )
+    assert "cannot sign as approved before the campaign is prepared and reviewed" in judged.fail(
+        *sign(judged, "approved", "MO")
+    )
+    judged(*sign(judged, "prepared", "LV"), "--quiet")
+    # LV is a reviewer too, but prepared, reviewed and approved need three people.
+    assert "already signed this campaign in another role" in judged.fail(
+        *sign(judged, "reviewed", "LV")
+    )
+
+
+def test_a_key_not_registered_for_the_signer_is_refused(judged: Bench) -> None:
+    assert "this key is not registered for Rita Pereira (RP)" in judged.fail(
+        *sign(judged, "prepared", "RP", key="LV")
+    )
+
+
+def test_approval_locks_the_campaign(judged: Bench) -> None:
+    approve_and_issue(judged)
+    line = judged.fail("record", "observe", RUN, "--note", "late note", "--by", "AK")
+    assert line == (
+        "error: QC-2027-014 is approved and locked; its records cannot change (record the "
+        "reason with `testplan amend QC-2027-014 --why ...`, then sign again)"
+    )
+
+
+@pytest.mark.parametrize(
+    ("statement", "named"),
+    [
+        (
+            "UPDATE sample SET value = 2000 WHERE seq = 100",
+            "samples of tank.csv, chunk 1 (rows 1 to 4400): changed",
+        ),
+        (
+            "UPDATE observation SET data_json = replace(data_json, 'false', 'true')",
+            "observation ingress on QC-2027-014-S01 in water-8@ip-verification-1: changed",
+        ),
+        ("UPDATE verdict SET outcome = 'pass' WHERE outcome <> 'pass'", "verdict water-8."),
+        (
+            "UPDATE calibration SET due_on = '2028-06-01'",
+            "calibration VC-2026-118 of PT-03 (lowest_point_depth): changed",
+        ),
+    ],
+)
+def test_a_direct_edit_of_the_store_fails_verify_and_is_named(
+    judged: Bench, statement: str, named: str
+) -> None:
+    pdf = approve_and_issue(judged)
+    judged.raw(statement)
+    found = problems(judged, pdf)
+    assert any(p.startswith(named) for p in found), found
+
+
+def test_a_changed_pdf_byte_fails(judged: Bench) -> None:
+    pdf = approve_and_issue(judged)
+    data = bytearray(pdf.read_bytes())
+    data[len(data) // 2] ^= 0x01  # one bit in the middle of the page content
+    bad = judged.folder / "changed.pdf"
+    bad.write_bytes(bytes(data))
+    assert problems(judged, bad)[0].startswith("this PDF is not an issued report of this store")
+
+
+def test_a_signature_by_an_unregistered_key_fails(judged: Bench) -> None:
+    pdf = approve_and_issue(judged)
+    _, other = new_private_pem(PASS)
+    judged.raw(
+        "UPDATE person_key SET public_key = :k, fingerprint = :f WHERE person_id = "
+        "(SELECT id FROM person WHERE initials = 'MO')",
+        k=other,
+        f=fingerprint(other),
+    )
+    assert any(
+        p.startswith("approved signature of MO: does not verify with the registered key")
+        for p in problems(judged, pdf)
+    )
+
+
+def test_an_amendment_verifies_as_a_new_revision(judged: Bench) -> None:
+    first = approve_and_issue(judged)
+    judged("amend", "QC-2027-014", "--why", "function check of S01 added", "--by", "MO", "--quiet")
+    judged(
+        "record",
+        "observe",
+        RUN,
+        "--specimen",
+        "QC-2027-014-S01",
+        "--function",
+        "pass",
+        "--by",
+        "AK",
+        "--quiet",
+    )
+    judged("judge", "--quiet", ok=False)
+    second = approve_and_issue(judged, "report-2.pdf")
+    result = judged("verify", str(second))
+    assert "verified" in result.stdout
+    text = " ".join(PdfReader(second).pages[0].extract_text().split())
+    assert "TR-QC-2027-014, revision 2" in text
+    assert "Replaces TR-QC-2027-014 revision 1 (amended" in text
+    old = judged("verify", str(first))
+    assert "superseded: amended" in old.stdout
+
+
+@pytest.mark.postgres
+def test_the_same_manifest_root_from_sqlite_and_postgresql(judged: Bench, tmp_path: Path) -> None:
+    if not PG_URL or not judged.url.startswith("sqlite"):
+        pytest.skip("needs the SQLite store and a PostgreSQL server")
+    pdf = approve_and_issue(judged)
+    url, admin, name = fresh_postgres_database()
+    try:
+        judged.plain("store", "copy", "--from", judged.url, "--to", url, "--quiet")
+        pg = Bench(url, tmp_path)
+        roots = {b.sql("SELECT root FROM manifest")[0][0] for b in (judged, pg)}
+        assert len(roots) == 1
+        assert "verified" in pg("verify", str(pdf)).stdout
+    finally:
+        with admin.connect() as conn:
+            conn.exec_driver_sql(f'DROP DATABASE "{name}" WITH (FORCE)')
+        admin.dispose()
