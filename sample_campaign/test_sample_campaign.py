@@ -89,3 +89,32 @@ def test_demo_bench_work_records_six_runs_judges_them_and_checks_out(tmp_path: P
             assert '"found":true' in found
     finally:
         engine.dispose()
+    pg = os.environ.get("TESTPLAN_TEST_PG_URL")
+    if pg:
+        # The demo store to PostgreSQL and back still verifies its report unchanged.
+        sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+        from tests.store.conftest import fresh_postgres_database
+
+        url, admin, name = fresh_postgres_database()
+        back = tmp_path / "back.db"
+        try:
+            for src, dst in ((str(tmp_path / "testplan.db"), url), (url, str(back))):
+                copy = subprocess.run(
+                    ["testplan", "store", "copy", "--from", src, "--to", dst, "-q"],
+                    capture_output=True,
+                    text=True,
+                    env=env,
+                )
+                assert copy.returncode == 0, copy.stderr
+        finally:
+            with admin.connect() as conn:
+                conn.exec_driver_sql(f'DROP DATABASE "{name}" WITH (FORCE)')
+            admin.dispose()
+        check = subprocess.run(
+            ["testplan", "verify", str(tmp_path / "report.pdf"), "--db", str(back)],
+            capture_output=True,
+            text=True,
+            env=env,
+        )
+        assert check.returncode == 0, check.stderr
+        assert check.stdout.splitlines()[-1].startswith("verified: ")

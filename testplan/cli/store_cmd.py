@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Annotated
 
 import typer
@@ -109,8 +110,8 @@ def copy_command(
     to: Annotated[str, typer.Option("--to", help="New, empty store (file or URL).")],
     quiet: QuietOption = False,
 ) -> None:
-    """Copy a whole store into a new, empty one (SQLite or PostgreSQL), then check counts
-    and the audit chain.
+    """Copy a whole store into a new one, or merge a bench's store into the lab's (SQLite or
+    PostgreSQL); then check the audit chains. On a record changed in both, nothing is copied.
 
     Example: testplan store copy --from lab.db --to postgresql://lab@dbhost/testplan
     """
@@ -121,8 +122,41 @@ def copy_command(
     target = track(open_store(to, create=True))
     say(f"copying {source.name} -> {target.name}", quiet=quiet)
     done = copy_store(source, target)
-    total = sum(done.rows.values())
+    for label in done.updated:
+        say(f"taken from the source (later there): {label}", quiet=quiet)
+    for label in done.kept:
+        say(f"kept in the destination (later there): {label}", quiet=quiet)
+    total = sum(done.inserted.values())
     typer.echo(
-        f"copied {total} rows in {len(done.rows)} tables; audit chain of "
-        f"{done.audit_entries} entries checks out"
+        f"copied {total} rows ({done.identical} already there, {len(done.updated)} updated); "
+        f"audit chains of {done.audit_entries} entries check out"
     )
+
+
+@app.command("backup")
+@reports_errors
+def backup_command(
+    path: Annotated[Path, typer.Argument(help="Backup file to write (must not exist).")],
+    db: DbOption = None,
+    quiet: QuietOption = False,
+) -> None:
+    """Make a consistent copy of a live SQLite store (benches may go on writing). For a
+    PostgreSQL store it says how to back it up with pg_dump.
+
+    Example: testplan store backup backups/lab-2027-02-01.db --db lab.db
+    """
+    from testplan.errors import StoreError
+    from testplan.store.copying import backup_sqlite
+    from testplan.store.engine import open_store
+
+    store = track(open_store(db))
+    if store.dialect != "sqlite":
+        url = store.engine.url
+        raise StoreError(
+            f"{store.name} is PostgreSQL: back it up with its own tool, e.g. "
+            f"`pg_dump --format=custom --file={path} --host={url.host or url.query.get('host', '')} "
+            f"--username={url.username or ''} {url.database}`; restore with `pg_restore --dbname=NEW`"
+        )
+    pages = backup_sqlite(store, str(path))
+    say(f"{pages} pages copied from {store.name}", quiet=quiet)
+    typer.echo(f"backed up to {path}")

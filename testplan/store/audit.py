@@ -18,7 +18,7 @@ from typing import Any
 import sqlalchemy as sa
 from sqlmodel import Session, col, select
 
-from testplan.store.tables import AuditEntry, RawFile, utc_now
+from testplan.store.tables import AuditEntry, RawFile, StoreMeta, utc_now
 
 GENESIS = "0" * 64
 
@@ -70,6 +70,16 @@ def values_of(obj: Any, *fields: str) -> dict[str, Any]:
     return {f: getattr(obj, f) for f in fields}
 
 
+def store_id(session: Session) -> str:
+    """This store's own id: the audit chain it writes to."""
+    cached = session.info.get("testplan_store_id")
+    if cached is None:
+        row = session.get(StoreMeta, "store_id")
+        assert row is not None, "store_meta has no store_id"
+        cached = session.info["testplan_store_id"] = row.value
+    return str(cached)
+
+
 def append(
     session: Session,
     *,
@@ -89,8 +99,15 @@ def append(
     """
     if session.get_bind().dialect.name == "postgresql":
         session.execute(sa.text("SELECT pg_advisory_xact_lock(hashtext('testplan.audit'))"))
-    last = session.exec(select(AuditEntry).order_by(col(AuditEntry.seq).desc()).limit(1)).first()
+    chain = store_id(session)
+    last = session.exec(
+        select(AuditEntry)
+        .where(AuditEntry.chain == chain)
+        .order_by(col(AuditEntry.seq).desc())
+        .limit(1)
+    ).first()
     entry = AuditEntry(
+        chain=chain,
         seq=(last.seq + 1) if last else 1,
         at=utc_now(),
         actor=actor,
@@ -122,24 +139,33 @@ class Finding:
 
 
 def check_chain(session: Session) -> tuple[int, list[Finding]]:
-    """Walk the chain in order; return the number of entries and what does not check out."""
+    """Walk each chain (this store's, and any merged from benches) in order; return the
+    number of entries and what does not check out."""
     findings: list[Finding] = []
-    prev = GENESIS
-    expected_seq = 1
     count = 0
-    for entry in session.exec(select(AuditEntry).order_by(col(AuditEntry.seq))):
-        count += 1
-        where = f"audit entry {entry.seq} ({entry.action} {entry.entity})"
-        if entry.seq != expected_seq:
-            findings.append(
-                Finding(f"entries {expected_seq} to {entry.seq - 1} are missing", where)
-            )
-        if entry.prev_hash != prev:
-            findings.append(Finding("does not follow the entry before it (chain broken)", where))
-        if entry_hash(entry) != entry.hash:
-            findings.append(Finding("content changed after it was recorded", where))
-        prev = entry.hash
-        expected_seq = entry.seq + 1
+    own = store_id(session)
+    chains = sorted(set(session.exec(select(AuditEntry.chain)).all()))
+    for chain in chains:
+        prev = GENESIS
+        expected_seq = 1
+        name = "" if chain == own else f" of chain {chain[:8]}"
+        for entry in session.exec(
+            select(AuditEntry).where(AuditEntry.chain == chain).order_by(col(AuditEntry.seq))
+        ):
+            count += 1
+            where = f"audit entry {entry.seq}{name} ({entry.action} {entry.entity})"
+            if entry.seq != expected_seq:
+                findings.append(
+                    Finding(f"entries {expected_seq} to {entry.seq - 1} are missing", where)
+                )
+            if entry.prev_hash != prev:
+                findings.append(
+                    Finding("does not follow the entry before it (chain broken)", where)
+                )
+            if entry_hash(entry) != entry.hash:
+                findings.append(Finding("content changed after it was recorded", where))
+            prev = entry.hash
+            expected_seq = entry.seq + 1
     return count, findings
 
 

@@ -104,6 +104,14 @@ class Calibration(SQLModel, table=True):
     created_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
 
 
+class StoreMeta(SQLModel, table=True):
+    """Facts about this store itself: ``store_id`` names its own audit chain."""
+
+    __tablename__ = "store_meta"
+    key: str = Field(primary_key=True, max_length=32)
+    value: str
+
+
 # --- campaigns and plans ---------------------------------------------------------------
 
 
@@ -237,8 +245,10 @@ class AuditEntry(SQLModel, table=True):
     """One append-only audit entry, hash-chained to the one before it."""
 
     __tablename__ = "audit"
+    __table_args__ = (sa.UniqueConstraint("chain", "seq"),)
     id: uuid.UUID = Field(default_factory=_id, primary_key=True)
-    seq: int = Field(unique=True)
+    chain: str = Field(max_length=36, index=True)
+    seq: int
     at: dt.datetime = Field(sa_type=UTCDateTime)
     actor: str
     action: str = Field(max_length=64)

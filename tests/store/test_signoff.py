@@ -6,6 +6,7 @@ import datetime as dt
 from pathlib import Path
 
 import pytest
+import sqlalchemy as sa
 from pypdf import PdfReader
 
 from testplan.keys import fingerprint, new_private_pem
@@ -170,10 +171,18 @@ def test_approval_locks_the_campaign(judged: Bench) -> None:
         ),
     ],
 )
-def test_a_direct_edit_of_the_store_fails_verify_and_is_named(
+def test_a_direct_edit_is_refused_by_postgresql_or_named_by_verify(
     judged: Bench, statement: str, named: str
 ) -> None:
+    """Through a second connection, behind the tool's back."""
     pdf = approve_and_issue(judged)
+    if judged.url.startswith("postgresql"):
+        with pytest.raises(
+            sa.exc.DBAPIError, match="belongs to an approved campaign and is locked"
+        ):
+            judged.raw(statement)
+        assert "verified" in judged("verify", str(pdf)).stdout
+        return
     judged.raw(statement)
     found = problems(judged, pdf)
     assert any(p.startswith(named) for p in found), found
@@ -191,6 +200,10 @@ def test_a_changed_pdf_byte_fails(judged: Bench) -> None:
 def test_a_signature_by_an_unregistered_key_fails(judged: Bench) -> None:
     pdf = approve_and_issue(judged)
     _, other = new_private_pem(PASS)
+    if judged.url.startswith("postgresql"):
+        with pytest.raises(sa.exc.DBAPIError, match="person_key records are append-only"):
+            judged.raw("UPDATE person_key SET public_key = :k", k=other)
+        return
     judged.raw(
         "UPDATE person_key SET public_key = :k, fingerprint = :f WHERE person_id = "
         "(SELECT id FROM person WHERE initials = 'MO')",
