@@ -20,11 +20,16 @@ demo: $(STAMP)
 	PATH="$(CURDIR)/$(BIN):$$PATH" sample_campaign/record_demo.sh demo-out
 
 lint: $(STAMP)
-	$(BIN)/ruff check testplan tests sample_campaign db
+	$(BIN)/ruff check testplan tests sample_campaign db bench
 	$(BIN)/mypy
 
 test: lint
 	$(BIN)/python -m pytest -q
+
+# Benchmarks (on demand; each prints testplan's time against a baseline run beside it).
+bench: $(STAMP)
+	@status=0; for b in startup import_sqlite import_postgres judge manifest; do \
+		$(BIN)/python bench/$$b.py || status=1; done; exit $$status
 
 # Regenerate constraints.txt from a venv that just passed `make test`.
 constraints: $(STAMP)

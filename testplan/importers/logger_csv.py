@@ -182,16 +182,30 @@ def read_logger_bytes(
     if not text.strip():
         raise LoggerFileError("the file is empty", file=name)
     _first_row_fits(text, delimiter, skip_lines, name)
+    header = _header(text, delimiter, skip_lines)
+    if layout == "auto":
+        layout = "long" if {channel_column, value_column} <= set(header) else "wide"
+    # Numbers are parsed by pandas' C reader; only the empty cell is missing, so a 'nan'
+    # or other text leaves the column as text and is found and named below.
+    dtypes: dict[str, Any] = {c: str for c in header}
+    for c in header:
+        if (layout == "long" and c == value_column) or (
+            layout == "wide" and c in {m.source for m in maps}
+        ):
+            dtypes.pop(c)
+    if layout == "long" and channel_column in dtypes:
+        dtypes[channel_column] = "category"
     try:
         df = pd.read_csv(
             io.StringIO(text),
             sep=delimiter,
             decimal=decimal,
             skiprows=skip_lines,
-            dtype=str,
+            dtype=dtypes,
             keep_default_na=False,
-            na_filter=False,
+            na_values=[""],
             skip_blank_lines=False,
+            skipinitialspace=True,
             index_col=False,
             engine="c",
         )
@@ -199,6 +213,20 @@ def read_logger_bytes(
         raise LoggerFileError(_parser_message(err, skip_lines), file=name) from None
     except pd.errors.EmptyDataError:
         raise LoggerFileError("no header line", file=name, line=header_line) from None
+    except (ValueError, TypeError):
+        # A text value in a number column makes pandas refuse the dtype; read all as text.
+        df = pd.read_csv(
+            io.StringIO(text),
+            sep=delimiter,
+            skiprows=skip_lines,
+            dtype=str,
+            keep_default_na=False,
+            na_values=[""],
+            skip_blank_lines=False,
+            skipinitialspace=True,
+            index_col=False,
+            engine="c",
+        )
     df.columns = [str(c).strip() for c in df.columns]
     if time_column not in df.columns:
         raise LoggerFileError(
@@ -207,23 +235,42 @@ def read_logger_bytes(
             line=header_line,
             fix="name it with --time-column",
         )
-    if layout == "auto":
-        layout = "long" if {channel_column, value_column} <= set(df.columns) else "wide"
-    blank = (df == "").all(axis=1).to_numpy()
+    blank = df.isna().all(axis=1).to_numpy()
     if blank.all():
         raise LoggerFileError("no data lines", file=name, line=header_line + 1)
     lines = np.arange(len(df)) + header_line + 1  # file line of each data row
-    keep = ~blank
-    df = df.loc[keep].reset_index(drop=True)
-    lines = lines[keep]
+    if blank.any():
+        keep = ~blank
+        df = df.loc[keep].reset_index(drop=True)
+        lines = lines[keep]
+    source_lines = _Lines(text)
     t_us = _times(df[time_column], lines, name, time_column, zone)
     if layout == "long":
         t, ch, val = _long(
-            df, lines, t_us, maps, name, channel_column, value_column, decimal, skip_unmapped
+            df,
+            lines,
+            t_us,
+            maps,
+            name,
+            channel_column,
+            value_column,
+            decimal,
+            skip_unmapped,
+            source_lines,
+            header_line,
         )
     else:
         t, ch, val = _wide(
-            df, lines, t_us, maps, name, time_column, decimal, skip_unmapped, header_line
+            df,
+            lines,
+            t_us,
+            maps,
+            name,
+            time_column,
+            decimal,
+            skip_unmapped,
+            header_line,
+            source_lines,
         )
     if len(t) == 0:
         raise LoggerFileError("no readings in the mapped channels", file=name)
@@ -273,11 +320,37 @@ def _decode(content: bytes, name: str, encoding: str) -> str:
     return text.removeprefix("\ufeff")
 
 
+def _head(text: str, n: int) -> list[str]:
+    """The first ``n`` lines, without splitting the whole (possibly huge) text."""
+    return text.split("\n", n)[:n]
+
+
+class _Lines:
+    """A file's lines, split only if a message needs one (logs can be millions of lines)."""
+
+    def __init__(self, text: str) -> None:
+        self.text = text
+        self._lines: list[str] | None = None
+
+    def __getitem__(self, i: int) -> str:
+        if self._lines is None:
+            self._lines = self.text.splitlines()
+        return self._lines[i]
+
+
+def _header(text: str, delimiter: str, skip_lines: int) -> list[str]:
+    import csv
+
+    for row in csv.reader(_head(text, skip_lines + 1)[skip_lines:], delimiter=delimiter):
+        return [c.strip() for c in row]
+    return []
+
+
 def _first_row_fits(text: str, delimiter: str, skip_lines: int, name: str) -> None:
     """pandas would take a first data row longer than the header as an index; refuse it."""
     import csv
 
-    head = text.splitlines()[skip_lines : skip_lines + 2]
+    head = _head(text, skip_lines + 2)[skip_lines:]
     if len(head) < 2 or not head[1].strip():
         return
     header, first = csv.reader(head, delimiter=delimiter)
@@ -306,30 +379,40 @@ def _times(
     import numpy as np
     import pandas as pd
 
-    raw = col.str.strip()
-    empty = (raw == "").to_numpy()
+    empty = col.isna().to_numpy()
     if empty.any():
         i = int(np.argmax(empty))
         raise LoggerFileError("empty time stamp", file=name, line=int(lines[i]), key=column)
-    looks = raw.str.match(_STAMP).to_numpy()
-    if not looks.all():
-        i = int(np.argmin(looks))
-        raise LoggerFileError(
-            f"cannot read {raw.iloc[i]!r} as an ISO 8601 time stamp",
-            file=name,
-            line=int(lines[i]),
-            key=column,
-        )
-    zoned = raw.str.contains(_ZONE, regex=True).to_numpy()
+    raw = col.astype(str)
+    zoned = _zoned(raw)
+
+    def unreadable(i: int) -> LoggerFileError | None:
+        if pd.isna(pd.to_datetime(raw.iloc[i], format="ISO8601", errors="coerce", utc=True)):
+            return LoggerFileError(
+                f"cannot read {raw.iloc[i]!r} as an ISO 8601 time stamp",
+                file=name,
+                line=int(lines[i]),
+                key=column,
+            )
+        return None
+
     if zoned.any() and not zoned.all():
         i = int(np.argmax(zoned != zoned[0]))
-        raise LoggerFileError(
-            "some time stamps carry a time zone and others do not",
-            file=name,
-            line=int(lines[i]),
-            key=column,
-            fix="write every time stamp the same way",
+        raise (
+            unreadable(i)
+            or unreadable(0)
+            or LoggerFileError(
+                "some time stamps carry a time zone and others do not",
+                file=name,
+                line=int(lines[i]),
+                key=column,
+                fix="write every time stamp the same way",
+            )
         )
+    if not zoned[0] and zone is None:
+        bad_first = unreadable(0)
+        if bad_first is not None:
+            raise bad_first
     if not zoned[0] and zone is None:
         raise LoggerFileError(
             f"time stamp {raw.iloc[0]!r} has no time zone",
@@ -366,9 +449,49 @@ def _times(
     return np.asarray(out, dtype=np.int64)
 
 
+def _zoned(raw: pd.Series[Any]) -> npt.NDArray[np.bool_]:
+    """Which time stamps carry a zone (Z, +hh:mm, +hhmm, +hh), over the whole column at once."""
+    import numpy as np
+
+    try:
+        b = raw.to_numpy(dtype=object).astype("S")
+    except UnicodeEncodeError:
+        return np.asarray(raw.str.contains(_ZONE, regex=True).to_numpy(), dtype=bool)
+    n, width = len(b), b.dtype.itemsize
+    u8 = np.frombuffer(b.tobytes(), dtype=np.uint8).reshape(n, width)
+    lens = np.char.str_len(b)
+    rows = np.arange(n)
+
+    def back(k: int) -> npt.NDArray[np.uint8]:
+        return u8[rows, np.clip(lens - k, 0, width - 1)]
+
+    def sign(c: npt.NDArray[np.uint8]) -> npt.NDArray[np.bool_]:
+        return np.asarray((c == ord("+")) | (c == ord("-")), dtype=bool)
+
+    timed = lens > 13  # a time follows the date; a bare date's '-dd' is not an offset
+    last = back(1)
+    zoned = (last == ord("Z")) | (last == ord("z"))
+    zoned |= timed & sign(back(6)) & (back(3) == ord(":"))
+    zoned |= timed & sign(back(5)) & (back(3) != ord(":"))
+    zoned |= timed & sign(back(3)) & (back(6) == ord(":"))
+    return np.asarray(zoned, dtype=bool)
+
+
 def _first_line_of(raw: pd.Series[Any], lines: npt.NDArray[Any], stamp: str) -> int | None:
     hits = raw.str.replace("T", " ").str.startswith(stamp.replace("T", " ")[:16]).to_numpy()
     return int(lines[hits.argmax()]) if hits.any() else None
+
+
+def _cell(source_lines: _Lines, line: int, column: str, header_line: int) -> str:
+    """The text of one cell as written in the file (for messages)."""
+    import csv
+
+    try:
+        header = next(csv.reader([source_lines[header_line - 1]]))
+        row = next(csv.reader([source_lines[line - 1]]))
+        return row[[h.strip() for h in header].index(column)].strip()
+    except (IndexError, ValueError, StopIteration):
+        return ""
 
 
 def _numbers(
@@ -379,21 +502,35 @@ def _numbers(
     decimal: str,
     *,
     allow_empty: bool,
+    source_lines: _Lines,
+    header_line: int,
 ) -> npt.NDArray[np.float64]:
     import numpy as np
     import pandas as pd
 
-    raw = col.str.strip()
-    if decimal != ".":
-        raw = raw.str.replace(decimal, ".", regex=False)
-    empty = (raw == "").to_numpy()
-    values = pd.to_numeric(raw.where(~empty, "nan"), errors="coerce").to_numpy(dtype=float)
+    if pd.api.types.is_float_dtype(col.dtype) or pd.api.types.is_integer_dtype(col.dtype):
+        values = col.to_numpy(dtype=float)
+        missing = np.isnan(values)
+        if missing.any():
+            # pandas reads 'nan' text as a number; only a truly empty cell is no reading.
+            idx = np.flatnonzero(missing)
+            texts = [_cell(source_lines, int(lines[i]), column, header_line) for i in idx]
+            empty = np.zeros(len(values), dtype=bool)
+            empty[idx] = [t == "" for t in texts]
+        else:
+            empty = missing
+    else:
+        raw = col.astype(str).str.strip().where(~col.isna(), "")
+        if decimal != ".":
+            raw = raw.str.replace(decimal, ".", regex=False)
+        empty = (raw == "").to_numpy()
+        values = pd.to_numeric(raw.where(~empty, "nan"), errors="coerce").to_numpy(dtype=float)
     bad = ~np.isfinite(values) & ~empty
     if not allow_empty:
         bad |= empty
     if bad.any():
         i = int(np.argmax(bad))
-        shown = col.iloc[i]
+        shown = _cell(source_lines, int(lines[i]), column, header_line)
         what = "empty value" if empty[i] else f"{shown!r} is not a finite number"
         raise LoggerFileError(what, file=name, line=int(lines[i]), key=column)
     return np.asarray(values, dtype=np.float64)
@@ -436,8 +573,11 @@ def _long(
     value_column: str,
     decimal: str,
     skip_unmapped: bool,
+    source_lines: _Lines,
+    header_line: int,
 ) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.int32], npt.NDArray[np.float64]]:
     import numpy as np
+    import pandas as pd
 
     for col in (channel_column, value_column):
         if col not in df.columns:
@@ -446,27 +586,40 @@ def _long(
                 file=name,
                 line=lines[0] - 1,
             )
-    names = df[channel_column].str.strip()
+    col = df[channel_column]
+    if not isinstance(col.dtype, pd.CategoricalDtype):
+        col = col.astype("category")
     index = {m.source: i for i, m in enumerate(maps)}
-    codes = names.map(index).to_numpy(dtype=float, na_value=np.nan)
-    unmapped = np.isnan(codes)
+    categories = [str(c).strip() for c in col.cat.categories]
+    lookup = np.array([index.get(c, -1) for c in categories] + [-1], dtype=np.int64)
+    cat_codes = col.cat.codes.to_numpy()  # -1 for an empty cell
+    codes = lookup[np.where(cat_codes < 0, len(categories), cat_codes)]
+    unmapped = codes < 0
+    present = {categories[c] for c in np.unique(cat_codes[cat_codes >= 0])}
     if unmapped.any() and not skip_unmapped:
         i = int(np.argmax(unmapped))
         raise LoggerFileError(
-            f"channel {names.iloc[i]!r} is not in the channel map",
+            f"channel {str(col.iloc[i]).strip()!r} is not in the channel map",
             file=name,
             line=int(lines[i]),
             key=channel_column,
             fix="map it with --map, or pass --skip-unmapped",
         )
-    missing = [m.source for m in maps if m.source not in set(names)]
+    missing = [m.source for m in maps if m.source not in present]
     if missing:
         raise LoggerFileError(
             f"mapped channel {missing[0]!r} has no readings in the file", file=name, key="--map"
         )
     keep = ~unmapped
     values = _numbers(
-        df[value_column][keep], lines[keep], name, value_column, decimal, allow_empty=False
+        df[value_column][keep],
+        lines[keep],
+        name,
+        value_column,
+        decimal,
+        allow_empty=False,
+        source_lines=source_lines,
+        header_line=header_line,
     )
     ch = codes[keep].astype(np.int32)
     t = t_us[keep]
@@ -486,6 +639,7 @@ def _wide(
     decimal: str,
     skip_unmapped: bool,
     header_line: int,
+    source_lines: _Lines,
 ) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.int32], npt.NDArray[np.float64]]:
     import numpy as np
 
@@ -508,7 +662,16 @@ def _wide(
     n, k = len(df), len(maps)
     block = np.empty((n, k), dtype=np.float64)
     for j, m in enumerate(maps):
-        block[:, j] = _numbers(df[m.source], lines, name, m.source, decimal, allow_empty=True)
+        block[:, j] = _numbers(
+            df[m.source],
+            lines,
+            name,
+            m.source,
+            decimal,
+            allow_empty=True,
+            source_lines=source_lines,
+            header_line=header_line,
+        )
     dt_ok = np.diff(t_us) > 0
     if not dt_ok.all():
         i = int(np.argmin(dt_ok))

@@ -15,7 +15,6 @@ from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
-import sqlalchemy as sa
 from sqlmodel import Session, col, select
 
 from testplan import __version__
@@ -30,6 +29,7 @@ from testplan.store.records import (
     run_procedure,
     run_specimens,
 )
+from testplan.store.samples import sample_table
 from testplan.store.tables import (
     Calibration,
     CampaignRecord,
@@ -67,18 +67,11 @@ def _series(session: Session, run: RunRecord) -> list[J.Series]:
         select(RawFile).where(RawFile.run_id == run.id).order_by(col(RawFile.imported_at))
     ).all()
     serials = {s.id: s.serial for s in run_specimens(session, run)}
-    conn = session.connection()
     for raw in raws:
-        rows = conn.execute(
-            sa.text(
-                "SELECT channel, t_us, value FROM sample WHERE raw_file_id = :r ORDER BY seq"
-            ).bindparams(sa.bindparam("r", type_=sa.Uuid())),
-            {"r": raw.id},
-        ).all()
-        data = np.asarray(rows, dtype=np.float64).reshape(-1, 3)
-        ch = data[:, 0].astype(np.int64)
+        data = sample_table(session, raw.id)
+        ch = data[:, 2].astype(np.int64)
         t = data[:, 1].astype(np.int64)  # microseconds since 1970 stay exact below 2**53
-        v = data[:, 2]
+        v = data[:, 3]
         channels = session.exec(
             select(LoggerChannel).where(LoggerChannel.raw_file_id == raw.id)
         ).all()

@@ -103,24 +103,41 @@ def _copy_postgres(
                 progress(stop - start)
 
 
+def sample_table(session: Session, raw_file_id: uuid.UUID) -> npt.NDArray[np.float64]:
+    """An import's samples as an (n, 4) array of seq, t_us, channel, value in seq order.
+
+    Read through the driver's own cursor into numpy: a million rows take a fraction of a
+    second this way (times in microseconds stay exact in float64 below 2**53).
+    """
+    import numpy as np
+
+    conn = session.connection()
+    cursor = conn.connection.cursor()
+    try:
+        if conn.dialect.name == "sqlite":
+            cursor.execute(
+                "SELECT seq, t_us, channel, value FROM sample WHERE raw_file_id = ? ORDER BY seq",
+                (raw_file_id.hex,),
+            )
+        else:
+            cursor.execute(
+                "SELECT seq, t_us, channel, value FROM sample WHERE raw_file_id = %s ORDER BY seq",
+                (raw_file_id,),
+            )
+        rows = cursor.fetchall()
+    finally:
+        cursor.close()
+    if not rows:
+        return np.zeros((0, 4), dtype=np.float64)
+    return np.array(rows, dtype=np.float64)
+
+
 def samples_digest(session: Session, raw_file_id: uuid.UUID) -> tuple[str, int]:
     """Re-read an import's samples from the store and hash them; also return their count."""
     import numpy as np
 
-    conn = session.connection()
-    stmt = sa.text(
-        "SELECT t_us, channel, value FROM sample WHERE raw_file_id = :rid ORDER BY seq"
-    ).bindparams(sa.bindparam("rid", type_=sa.Uuid()))
-    rows = conn.execute(stmt, {"rid": raw_file_id}).all()
-    if not rows:
-        empty_i8 = np.zeros(0, dtype=np.int64)
-        return digest_arrays(empty_i8, np.zeros(0, dtype=np.int32), np.zeros(0)), 0
-    t, c, v = zip(*rows, strict=True)
+    data = sample_table(session, raw_file_id)
     return (
-        digest_arrays(
-            np.asarray(t, dtype=np.int64),
-            np.asarray(c, dtype=np.int32),
-            np.asarray(v, dtype=np.float64),
-        ),
-        len(rows),
+        digest_arrays(data[:, 1].astype(np.int64), data[:, 2].astype(np.int32), data[:, 3]),
+        len(data),
     )

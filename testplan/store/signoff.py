@@ -81,19 +81,9 @@ class Item:
 def _sample_chunks(session: Session, raw: RawFile) -> list[Item]:
     import numpy as np
 
-    from testplan.store.samples import digest_arrays
+    from testplan.store.samples import digest_arrays, sample_table
 
-    rows = (
-        session.connection()
-        .execute(
-            sa.text(
-                "SELECT seq, t_us, channel, value FROM sample WHERE raw_file_id = :r ORDER BY seq"
-            ).bindparams(sa.bindparam("r", type_=sa.Uuid())),
-            {"r": raw.id},
-        )
-        .all()
-    )
-    data = np.asarray(rows, dtype=np.float64).reshape(-1, 4)
+    data = sample_table(session, raw.id)
     items = []
     for n, start in enumerate(range(0, max(len(data), 1), CHUNK_ROWS)):
         block = data[start : start + CHUNK_ROWS]

@@ -113,3 +113,9 @@ def test_a_store_from_a_newer_testplan_is_refused(db_url: str, tmp_path: Path) -
 def test_unsupported_store_urls(url: str, tmp_path: Path) -> None:
     line = Bench(url, tmp_path).fail("people", "list")
     assert line.startswith("error: --db: ")
+
+
+def test_the_quick_head_check_names_the_newest_migration() -> None:
+    from testplan.store.engine import HEAD
+
+    assert HEAD == head_revision() == known_revisions()[-1]
