@@ -1,0 +1,1 @@
+"""Data-logger files into samples: the only package that uses pandas."""

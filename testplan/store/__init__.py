@@ -1,0 +1,1 @@
+"""The bench store: the only package that uses SQLAlchemy and SQLModel."""
