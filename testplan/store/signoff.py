@@ -521,6 +521,9 @@ def record_issue(
     manifest = approved_manifest(session, campaign.id)
     if manifest is None:
         return None
+    same = session.exec(select(ReportIssue).where(ReportIssue.pdf_sha256 == pdf_sha256)).first()
+    if same is not None:
+        return same  # the same bytes issued again: one record
     row = ReportIssue(
         campaign_id=campaign.id,
         manifest_id=manifest.id,
