@@ -195,13 +195,14 @@ def read_logger_bytes(
             dtypes.pop(c)
     if layout == "long" and channel_column in dtypes:
         dtypes[channel_column] = "category"
-    try:
-        df = pd.read_csv(
+
+    def read(types: Any) -> pd.DataFrame:
+        return pd.read_csv(
             io.StringIO(text),
             sep=delimiter,
             decimal=decimal,
             skiprows=skip_lines,
-            dtype=dtypes,
+            dtype=types,
             keep_default_na=False,
             na_values=[""],
             skip_blank_lines=False,
@@ -209,24 +210,16 @@ def read_logger_bytes(
             index_col=False,
             engine="c",
         )
+
+    try:
+        df = read(dtypes)
     except pd.errors.ParserError as err:
         raise LoggerFileError(_parser_message(err, skip_lines), file=name) from None
     except pd.errors.EmptyDataError:
         raise LoggerFileError("no header line", file=name, line=header_line) from None
     except (ValueError, TypeError):
         # A text value in a number column makes pandas refuse the dtype; read all as text.
-        df = pd.read_csv(
-            io.StringIO(text),
-            sep=delimiter,
-            skiprows=skip_lines,
-            dtype=str,
-            keep_default_na=False,
-            na_values=[""],
-            skip_blank_lines=False,
-            skipinitialspace=True,
-            index_col=False,
-            engine="c",
-        )
+        df = read(str)
     df.columns = [str(c).strip() for c in df.columns]
     if time_column not in df.columns:
         raise LoggerFileError(
