@@ -45,7 +45,6 @@ GAP_FACTOR = 1.5
 PERIOD_S = {"flow": 60.0, "extraction_rate": 900.0}
 # Criterion units that name a channel's unit another way.
 UNIT_ALIASES = {"ml/80cm^2/h": "mL/h", "pH": "", "Rp": "", "count": "", "cycle": "cycle"}
-# Exact quantities (counts, ratings, cycles from the recorded times) take no guard band.
 
 
 @dataclass(frozen=True)

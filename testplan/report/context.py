@@ -226,7 +226,7 @@ def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
     for v, serial in r.verdicts:
         u = f"{J.fmt(v.uncertainty, v.unit)} (k = {v.coverage_k:g})" if v.uncertainty else "-"
         lim = J.Criterion(v.criterion_key, v.quantity, "", "", v.unit, v.limit_min, v.limit_max)
-        limit = "-" if v.limit_min is None and v.limit_max is None else _limit(lim)
+        limit = "-" if v.limit_min is None and v.limit_max is None else lim.shown_limits()
         verdicts.append(
             Row(
                 [
@@ -291,10 +291,6 @@ def _basis(detail: str) -> str:
     if " against " in head:
         return rest if sep else "-"
     return detail
-
-
-def _limit(c: J.Criterion) -> str:
-    return c.shown_limits()
 
 
 def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext:

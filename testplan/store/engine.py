@@ -156,10 +156,10 @@ class Store:
             except Exception as err:
                 if not isinstance(err, (OperationalError, DBAPIError, *_driver_errors())):
                     raise
-                if not _is_busy(err) or delay is None:
-                    if _is_busy(err):
-                        break
+                if not _is_busy(err):
                     raise _store_error(self, err) from err
+                if delay is None:
+                    break
                 time.sleep(delay)
                 waited += delay
         raise StoreError(

@@ -610,7 +610,7 @@ def _open(session: Session, campaign_id: uuid.UUID) -> None:
     ensure_open(session, campaign_id)
 
 
-def _amended_since(session: Session, run: RunRecord) -> bool:
+def _amendment_open(session: Session, run: RunRecord) -> bool:
     """An open amendment lets observations be added to runs already checked (every run is
     checked before sign-off, so an amendment always follows the checks)."""
     from testplan.store.tables import Amendment
@@ -1051,7 +1051,7 @@ def add_observations(
     session: Session, *, run: RunRecord, items: Sequence[ObservationIn], by: str
 ) -> list[Observation]:
     _open(session, run.campaign_id)
-    if not (run.state == "checked" and _amended_since(session, run)):
+    if not (run.state == "checked" and _amendment_open(session, run)):
         _state(run, ("running", "finished"), "record observations on")
     person = require_role(session, by, "operator")
     serials = {s.serial: s for s in run_specimens(session, run)}
