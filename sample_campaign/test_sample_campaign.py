@@ -7,6 +7,7 @@ import subprocess
 import sys
 from pathlib import Path
 
+import numpy as np
 import pytest
 import sqlalchemy as sa
 from typer.testing import CliRunner
@@ -70,16 +71,23 @@ def test_demo_bench_work_records_six_runs_judges_them_and_checks_out(tmp_path: P
         with engine.connect() as conn:
             assert conn.execute(sa.text("SELECT count(*) FROM raw_file")).scalar() == 7
             # The made-to-fail run: the lowest point above 2053.7 mm for four minutes.
-            shallow = conn.execute(
+            (number,) = conn.execute(
                 sa.text(
-                    "SELECT count(*) FROM sample s JOIN logger_channel c "
-                    "ON c.raw_file_id = s.raw_file_id AND c.number = s.channel "
-                    "JOIN raw_file f ON f.id = s.raw_file_id "
-                    "WHERE f.name = 'tank-aged1.csv' AND c.quantity = 'lowest_point_depth' "
-                    "AND s.value > 1900 AND s.value < 2053.7"
+                    "SELECT c.number FROM logger_channel c JOIN raw_file f "
+                    "ON f.id = c.raw_file_id "
+                    "WHERE f.name = 'tank-aged1.csv' AND c.quantity = 'lowest_point_depth'"
                 )
-            ).scalar()
-            assert shallow == 4
+            ).one()
+            blocks = conn.execute(
+                sa.text(
+                    "SELECT b.channel, b.value FROM sample_block b JOIN raw_file f "
+                    "ON f.id = b.raw_file_id WHERE f.name = 'tank-aged1.csv' ORDER BY b.block"
+                )
+            ).all()
+            channel = np.concatenate([np.frombuffer(c, "<i4") for c, _ in blocks])
+            value = np.concatenate([np.frombuffer(v, "<f8") for _, v in blocks])
+            depth = value[channel == number]
+            assert int(((depth > 1900) & (depth < 2053.7)).sum()) == 4
             found = conn.execute(
                 sa.text(
                     "SELECT o.data_json FROM observation o JOIN specimen s ON s.id = o.specimen_id "

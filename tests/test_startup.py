@@ -1,11 +1,24 @@
-"""`testplan --help` must not import the heavy libraries."""
+"""Start-up paths must not import the heavy libraries (speed is measured in bench/)."""
 
 from __future__ import annotations
 
 import subprocess
 import sys
+from pathlib import Path
 
-HEAVY = ("pandas", "sqlalchemy", "sqlmodel", "weasyprint", "matplotlib", "scipy", "numpy", "pint")
+HEAVY = (
+    "pandas",
+    "sqlalchemy",
+    "sqlmodel",
+    "weasyprint",
+    "matplotlib",
+    "scipy",
+    "numpy",
+    "pint",
+    "pydantic",
+    "rich",
+)
+SAMPLE = Path(__file__).resolve().parents[1] / "sample_campaign" / "flood-gauge-node.toml"
 
 
 def loaded_after(args: list[str]) -> set[str]:
@@ -35,3 +48,24 @@ def test_module_entry_point() -> None:
         [sys.executable, "-m", "testplan", "--version"], capture_output=True, text=True, check=True
     )
     assert result.stdout.startswith("testplan ")
+
+
+def test_subcommand_help_imports_nothing_heavy() -> None:
+    assert loaded_after(["record", "import", "--help"]) == set()
+    assert loaded_after(["store", "check", "--help"]) == set()
+
+
+def heavy_loaded_by(code: str) -> set[str]:
+    probe = f"import sys\n{code}\nprint(' '.join(m for m in {HEAVY!r} if m in sys.modules))"
+    result = subprocess.run(
+        [sys.executable, "-c", probe], capture_output=True, text=True, check=True
+    )
+    return set(result.stdout.split())
+
+
+def test_plan_loads_only_units_and_tables() -> None:
+    # planning needs the units library (and whatever it loads itself), rich for the
+    # tables and pydantic for typer's parameter coercion; no pandas, SQLAlchemy, ...
+    units = heavy_loaded_by("import pint; pint.UnitRegistry()")
+    assert "pint" in units
+    assert loaded_after(["plan", str(SAMPLE)]) - units <= {"rich", "pydantic"}

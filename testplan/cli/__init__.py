@@ -10,18 +10,16 @@ import typer
 
 from testplan import __version__
 from testplan.cli import equipment, people, record, signoff_cmd, store_cmd
+from testplan.cli.common import command_group
 from testplan.cli.init_cmd import init_command
 from testplan.cli.judge_cmd import judge_command
 from testplan.cli.plan import PLAN_EPILOG, plan_command
 from testplan.cli.report_cmd import report_command
 
-app = typer.Typer(
-    name="testplan",
-    help="Plan, record, judge and report qualification tests of sealed products "
+app = command_group(
+    "Plan, record, judge and report qualification tests of sealed products "
     "(IP code ingress, salt mist, cycle endurance).",
-    no_args_is_help=True,
-    pretty_exceptions_show_locals=False,
-    add_completion=False,
+    name="testplan",
 )
 
 

@@ -9,10 +9,14 @@ import datetime as dt
 from typing import TYPE_CHECKING, Annotated
 
 import typer
+from typer.core import TyperGroup
 
 from testplan.errors import RecordError
 
 if TYPE_CHECKING:  # pragma: no cover
+    from typer._click import Context
+    from typer.core import TyperOption
+
     from testplan.store.engine import Store
 
 DbOption = Annotated[
@@ -31,6 +35,41 @@ CampaignOption = Annotated[
     ),
 ]
 QuietOption = Annotated[bool, typer.Option("--quiet", "-q", help="No progress or notes.")]
+
+
+class _Group(TyperGroup):
+    """A command group whose own --help flag needs no value coercion.
+
+    typer coerces every parameter a group parses through pydantic, and the group's
+    --help flag (None when not given) is the only one ours have: that costs the import
+    of pydantic, half the start-up of any subcommand. A flag that is absent needs no
+    coercion, so it gets typer's pass-through coercion. tests/test_startup.py checks
+    that a subcommand's --help still does not import pydantic.
+    """
+
+    def get_help_option(self, ctx: Context) -> TyperOption | None:
+        option = super().get_help_option(ctx)
+        if option is not None and getattr(option, "_runtime_param", True) is None:
+            from typer._coercion import PassThroughRuntimeParam
+
+            option._runtime_param = PassThroughRuntimeParam(
+                parameter_info=option.type_descriptor.parameter_info, annotation=bool
+            )
+        return option
+
+
+def command_group(help_text: str, **kwargs: object) -> typer.Typer:
+    """A typer app whose help is plain text: rich help formatting costs a third of a
+    second at every start, far more than the command table it draws."""
+    return typer.Typer(
+        help=help_text,
+        cls=_Group,
+        no_args_is_help=True,
+        rich_markup_mode=None,
+        pretty_exceptions_enable=False,
+        add_completion=False,
+        **kwargs,  # type: ignore[arg-type]
+    )
 
 
 _OPEN: list[Store] = []

@@ -9,6 +9,7 @@ import typer
 from testplan.cli.common import (
     DbOption,
     QuietOption,
+    command_group,
     open_for_reading,
     open_for_writing,
     parse_date,
@@ -21,7 +22,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
     from testplan.store.tables import Calibration, Equipment
 
-app = typer.Typer(help="Register equipment and record its calibrations.", no_args_is_help=True)
+app = command_group("Register equipment and record its calibrations.")
 
 
 @app.command("add")

@@ -6,7 +6,13 @@ from typing import TYPE_CHECKING, Annotated
 
 import typer
 
-from testplan.cli.common import DbOption, QuietOption, open_for_reading, open_for_writing
+from testplan.cli.common import (
+    DbOption,
+    QuietOption,
+    command_group,
+    open_for_reading,
+    open_for_writing,
+)
 from testplan.cli.errors import reports_errors
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -16,9 +22,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 ROLE_HELP = "operator, checker, preparer, reviewer or approver; repeat for several."
 
-app = typer.Typer(
-    help="Register people and the roles they are authorised for.", no_args_is_help=True
-)
+app = command_group("Register people and the roles they are authorised for.")
 
 
 @app.command("add")

@@ -11,6 +11,7 @@ from testplan.cli.common import (
     CampaignOption,
     DbOption,
     QuietOption,
+    command_group,
     open_for_reading,
     open_for_writing,
     parse_at,
@@ -25,9 +26,8 @@ if TYPE_CHECKING:  # pragma: no cover
 
     from testplan.store.tables import RawFile
 
-app = typer.Typer(
-    help="Record runs at the bench: start, logger data, observations, finish, data check.",
-    no_args_is_help=True,
+app = command_group(
+    "Record runs at the bench: start, logger data, observations, finish, data check."
 )
 
 RunArg = Annotated[str, typer.Argument(help="Run id from the plan, e.g. water-8@aged-1.")]

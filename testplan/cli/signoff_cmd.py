@@ -8,7 +8,13 @@ from typing import TYPE_CHECKING, Annotated
 
 import typer
 
-from testplan.cli.common import DbOption, QuietOption, open_for_reading, open_for_writing
+from testplan.cli.common import (
+    DbOption,
+    QuietOption,
+    command_group,
+    open_for_reading,
+    open_for_writing,
+)
 from testplan.cli.errors import reports_errors
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -19,9 +25,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
 PASS_ENV = "TESTPLAN_KEY_PASSPHRASE"
 
-keys_app = typer.Typer(
-    help="Signing keys: make a key pair, register a public key.", no_args_is_help=True
-)
+keys_app = command_group("Signing keys: make a key pair, register a public key.")
 
 
 def _passphrase(confirm: bool) -> str:

@@ -7,14 +7,11 @@ from typing import Annotated
 
 import typer
 
-from testplan.cli.common import DbOption, QuietOption, say, track
+from testplan.cli.common import DbOption, QuietOption, command_group, say, track
 from testplan.cli.errors import reports_errors
 from testplan.errors import IntegrityError
 
-app = typer.Typer(
-    help="Look after the store: schema upgrades and integrity checks.",
-    no_args_is_help=True,
-)
+app = command_group("Look after the store: schema upgrades and integrity checks.")
 
 
 @app.command("upgrade")

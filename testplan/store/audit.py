@@ -171,7 +171,7 @@ def check_chain(session: Session) -> tuple[int, list[Finding]]:
 
 def check_raw_files(session: Session) -> tuple[int, list[Finding]]:
     """Re-hash every raw file and the samples of every import."""
-    from testplan.store.samples import samples_digest
+    from testplan.store.samples import check_blocks, digest_arrays
 
     findings: list[Finding] = []
     count = 0
@@ -180,10 +180,19 @@ def check_raw_files(session: Session) -> tuple[int, list[Finding]]:
         where = f"raw file {raw.name} ({raw.id})"
         if hashlib.sha256(raw.content).hexdigest() != raw.sha256:
             findings.append(Finding("content no longer matches its SHA-256", where))
-        digest, n = samples_digest(session, raw.id)
-        if n != raw.samples:
-            findings.append(Finding(f"holds {n} samples, {raw.samples} were imported", where))
-        elif digest != raw.samples_sha256:
+        data, problems = check_blocks(session, raw.id)
+        for p in problems:
+            findings.append(
+                Finding(
+                    f"sample block {p.block + 1} (from sample {p.first_seq + 1}): {p.problem}",
+                    where,
+                )
+            )
+        if len(data) != raw.samples:
+            findings.append(
+                Finding(f"holds {len(data)} samples, {raw.samples} were imported", where)
+            )
+        elif digest_arrays(data.t_us, data.channel, data.value) != raw.samples_sha256:
             findings.append(Finding("samples changed since import", where))
     return count, findings
 

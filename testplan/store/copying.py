@@ -61,7 +61,9 @@ def copy_store(
     from testplan.store.audit import check_chain
 
     done = Copied()
-    tables = [t for t in SQLModel.metadata.sorted_tables if t.name not in ("store_meta", "sample")]
+    tables = [
+        t for t in SQLModel.metadata.sorted_tables if t.name not in ("store_meta", "sample_block")
+    ]
     try:
         _copy_rows(source, target, tables, done, progress)
     except sa.exc.DBAPIError as err:
@@ -125,16 +127,17 @@ def _copy_rows(
                 new_files = [row["id"] for row in batch]
             if progress is not None:
                 progress(table.name, len(batch))
-        sample = SQLModel.metadata.tables["sample"]
+        blocks = SQLModel.metadata.tables["sample_block"]
         n = 0
         for file_id in new_files:
+            # a block is up to 65,536 samples (about 1 MB): copied a few at a time
             result = src.execution_options(stream_results=True).execute(
-                sa.select(sample).where(sample.c.raw_file_id == file_id)
+                sa.select(blocks).where(blocks.c.raw_file_id == file_id)
             )
-            while rows := result.fetchmany(BATCH):
-                dst.execute(sample.insert(), [dict(r._mapping) for r in rows])
+            while rows := result.fetchmany(8):
+                dst.execute(blocks.insert(), [dict(r._mapping) for r in rows])
                 n += len(rows)
-        done.inserted["sample"] = n
+        done.inserted["sample_block"] = n
 
 
 def backup_sqlite(store: Store, path: str) -> int:

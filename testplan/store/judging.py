@@ -29,7 +29,7 @@ from testplan.store.records import (
     run_procedure,
     run_specimens,
 )
-from testplan.store.samples import sample_table
+from testplan.store.samples import read_samples
 from testplan.store.tables import (
     Calibration,
     CampaignRecord,
@@ -60,18 +60,14 @@ def rule_of(plan: dict[str, Any]) -> J.Rule:
 
 
 def _series(session: Session, run: RunRecord) -> list[J.Series]:
-    import numpy as np
-
     out = []
     raws = session.exec(
         select(RawFile).where(RawFile.run_id == run.id).order_by(col(RawFile.imported_at))
     ).all()
     serials = {s.id: s.serial for s in run_specimens(session, run)}
     for raw in raws:
-        data = sample_table(session, raw.id)
-        ch = data[:, 2].astype(np.int64)
-        t = data[:, 1].astype(np.int64)  # microseconds since 1970 stay exact below 2**53
-        v = data[:, 3]
+        data = read_samples(session, raw.id)
+        ch, t, v = data.channel, data.t_us, data.value
         channels = session.exec(
             select(LoggerChannel).where(LoggerChannel.raw_file_id == raw.id)
         ).all()

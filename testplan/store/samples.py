@@ -1,9 +1,15 @@
-"""The bulk path for logged samples: executemany on SQLite, COPY on PostgreSQL.
+"""Logged samples are stored in columnar blocks, not a row per value.
 
-Samples never go in as one ORM object per row. They are written in chunks inside the
-caller's transaction, so an import is stored whole or not at all. ``samples_digest``
-hashes an import's samples in sequence order (little-endian int64 time, int32 channel,
-float64 value), the same way on both engines.
+An import's samples (in file order) are cut into blocks of BLOCK samples. Each block row
+holds three little-endian arrays (int64 microseconds since 1970 UTC, int32 channel number,
+float64 value in plan units), its first sequence number, its count and the SHA-256 of its
+arrays. A million samples are 16 rows: writing them is one bulk insert on either engine,
+and reading them back for judging, plotting or hashing is a copy of bytes rather than a
+million driver rows.
+
+Blocks are written inside the caller's transaction, so an import is stored whole or not at
+all. ``digest_arrays`` is the one hash layout (used per block, per import and per manifest
+chunk), the same on SQLite and PostgreSQL.
 """
 
 from __future__ import annotations
@@ -11,7 +17,8 @@ from __future__ import annotations
 import hashlib
 import uuid
 from collections.abc import Callable
-from typing import TYPE_CHECKING
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, cast
 
 import sqlalchemy as sa
 from sqlmodel import Session
@@ -20,21 +27,74 @@ if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
     import numpy.typing as npt
 
-CHUNK_ROWS = 50_000
-
-_INSERT = "INSERT INTO sample (raw_file_id, seq, channel, t_us, value) VALUES (?, ?, ?, ?, ?)"
-_COPY = "COPY sample (raw_file_id, seq, channel, t_us, value) FROM STDIN"
+BLOCK = 65_536
 
 
 def digest_arrays(
     t_us: npt.NDArray[np.int64], channel: npt.NDArray[np.int32], value: npt.NDArray[np.float64]
 ) -> str:
-    """SHA-256 over the samples in sequence order, in a fixed binary layout."""
+    """SHA-256 over samples in sequence order, in a fixed binary layout."""
     h = hashlib.sha256()
     h.update(t_us.astype("<i8").tobytes())
     h.update(channel.astype("<i4").tobytes())
     h.update(value.astype("<f8").tobytes())
     return h.hexdigest()
+
+
+@dataclass(frozen=True)
+class Samples:
+    """An import's samples in sequence order (sequence numbers are 0..n-1)."""
+
+    t_us: npt.NDArray[np.int64]
+    channel: npt.NDArray[np.int32]
+    value: npt.NDArray[np.float64]
+
+    def __len__(self) -> int:
+        return len(self.t_us)
+
+
+@dataclass(frozen=True)
+class BlockProblem:
+    """A stored block that does not check out."""
+
+    block: int
+    first_seq: int
+    problem: str
+
+
+def _table() -> sa.Table:
+    from sqlmodel import SQLModel
+
+    import testplan.store.tables  # noqa: F401  (registers the tables)
+
+    return SQLModel.metadata.tables["sample_block"]
+
+
+def block_rows(
+    raw_file_id: uuid.UUID,
+    t_us: npt.NDArray[np.int64],
+    channel: npt.NDArray[np.int32],
+    value: npt.NDArray[np.float64],
+    first_block: int = 0,
+) -> list[dict[str, object]]:
+    """The block rows of one import's samples."""
+    rows = []
+    for start in range(0, len(t_us), BLOCK):
+        stop = min(start + BLOCK, len(t_us))
+        t, c, v = t_us[start:stop], channel[start:stop], value[start:stop]
+        rows.append(
+            {
+                "raw_file_id": raw_file_id,
+                "block": first_block + start // BLOCK,
+                "first_seq": start,
+                "n": stop - start,
+                "t_us": t.astype("<i8").tobytes(),
+                "channel": c.astype("<i4").tobytes(),
+                "value": v.astype("<f8").tobytes(),
+                "sha256": digest_arrays(t, c, v),
+            }
+        )
+    return rows
 
 
 def insert_samples(
@@ -46,98 +106,96 @@ def insert_samples(
     *,
     progress: Callable[[int], None] | None = None,
 ) -> None:
-    """Write the samples of one raw file in chunks on the session's own connection."""
+    """Write the samples of one raw file as blocks on the session's own connection."""
     conn = session.connection()
-    n = len(t_us)
-    if conn.dialect.name == "postgresql":
-        _copy_postgres(conn, raw_file_id, t_us, channel, value, progress)
-        return
-    rid = raw_file_id.hex  # SQLAlchemy's Uuid is CHAR(32) hex on SQLite
-    for start in range(0, n, CHUNK_ROWS):
-        stop = min(start + CHUNK_ROWS, n)
-        rows = list(
-            zip(
-                [rid] * (stop - start),
-                range(start, stop),
-                channel[start:stop].tolist(),
-                t_us[start:stop].tolist(),
-                value[start:stop].tolist(),
-                strict=True,
-            )
-        )
-        conn.exec_driver_sql(_INSERT, rows)
+    table = _table()
+    for row in block_rows(raw_file_id, t_us, channel, value):
+        conn.execute(table.insert(), [row])
         if progress is not None:
-            progress(stop - start)
+            progress(cast(int, row["n"]))
 
 
-def _copy_postgres(
-    conn: sa.Connection,
-    raw_file_id: uuid.UUID,
-    t_us: npt.NDArray[np.int64],
-    channel: npt.NDArray[np.int32],
-    value: npt.NDArray[np.float64],
-    progress: Callable[[int], None] | None,
-) -> None:
-    import numpy as np
-
-    driver = conn.connection.driver_connection
-    assert driver is not None
-    rid = str(raw_file_id)
-    n = len(t_us)
-    with driver.cursor() as cur, cur.copy(_COPY) as copy:
-        for start in range(0, n, CHUNK_ROWS):
-            stop = min(start + CHUNK_ROWS, n)
-            seq = np.arange(start, stop)
-            lines = "".join(
-                f"{rid}\t{s}\t{c}\t{t}\t{v!r}\n"
-                for s, c, t, v in zip(
-                    seq.tolist(),
-                    channel[start:stop].tolist(),
-                    t_us[start:stop].tolist(),
-                    value[start:stop].tolist(),
-                    strict=True,
-                )
+def _blocks(session: Session, raw_file_id: uuid.UUID) -> list[sa.Row[tuple[object, ...]]]:
+    table = _table()
+    return list(
+        session.connection().execute(
+            sa.select(
+                table.c.block,
+                table.c.first_seq,
+                table.c.n,
+                table.c.t_us,
+                table.c.channel,
+                table.c.value,
+                table.c.sha256,
             )
-            copy.write(lines)
-            if progress is not None:
-                progress(stop - start)
-
-
-def sample_table(session: Session, raw_file_id: uuid.UUID) -> npt.NDArray[np.float64]:
-    """An import's samples as an (n, 4) array of seq, t_us, channel, value in seq order.
-
-    Read through the driver's own cursor into numpy: a million rows take a fraction of a
-    second this way (times in microseconds stay exact in float64 below 2**53).
-    """
-    import numpy as np
-
-    conn = session.connection()
-    cursor = conn.connection.cursor()
-    try:
-        if conn.dialect.name == "sqlite":
-            cursor.execute(
-                "SELECT seq, t_us, channel, value FROM sample WHERE raw_file_id = ? ORDER BY seq",
-                (raw_file_id.hex,),
-            )
-        else:
-            cursor.execute(
-                "SELECT seq, t_us, channel, value FROM sample WHERE raw_file_id = %s ORDER BY seq",
-                (raw_file_id,),
-            )
-        rows = cursor.fetchall()
-    finally:
-        cursor.close()
-    if not rows:
-        return np.zeros((0, 4), dtype=np.float64)
-    return np.array(rows, dtype=np.float64)
-
-
-def samples_digest(session: Session, raw_file_id: uuid.UUID) -> tuple[str, int]:
-    """Re-read an import's samples from the store and hash them; also return their count."""
-    import numpy as np
-
-    data = sample_table(session, raw_file_id)
-    return (
-        digest_arrays(data[:, 1].astype(np.int64), data[:, 2].astype(np.int32), data[:, 3]),
-        len(data),
+            .where(table.c.raw_file_id == raw_file_id)
+            .order_by(table.c.block)
+        )
     )
+
+
+def _decode(row: sa.Row[tuple[object, ...]]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    import numpy as np
+
+    return (
+        np.frombuffer(bytes(row.t_us), dtype="<i8").astype(np.int64),
+        np.frombuffer(bytes(row.channel), dtype="<i4").astype(np.int32),
+        np.frombuffer(bytes(row.value), dtype="<f8").astype(np.float64),
+    )
+
+
+def read_samples(session: Session, raw_file_id: uuid.UUID) -> Samples:
+    """An import's samples, in sequence order, as three arrays."""
+    import numpy as np
+
+    parts = [_decode(row) for row in _blocks(session, raw_file_id)]
+    if not parts:
+        return Samples(
+            np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int32), np.zeros(0, dtype=np.float64)
+        )
+    return Samples(
+        np.concatenate([p[0] for p in parts]),
+        np.concatenate([p[1] for p in parts]),
+        np.concatenate([p[2] for p in parts]),
+    )
+
+
+def check_blocks(session: Session, raw_file_id: uuid.UUID) -> tuple[Samples, list[BlockProblem]]:
+    """Read an import's samples and check each block: its arrays against its own SHA-256
+    and count, and that blocks follow on from each other with no gap or overlap."""
+    import numpy as np
+
+    problems: list[BlockProblem] = []
+    parts = []
+    expected_seq = expected_block = 0
+    for row in _blocks(session, raw_file_id):
+        block, first, n = int(row.block), int(row.first_seq), int(row.n)
+        if block != expected_block:
+            gone = f"{expected_block + 1}" + (f" to {block}" if block > expected_block + 1 else "")
+            problems.append(BlockProblem(expected_block, expected_seq, f"block {gone} missing"))
+        elif first != expected_seq:
+            problems.append(
+                BlockProblem(block, first, f"starts at sample {first + 1}, not {expected_seq + 1}")
+            )
+        try:
+            t, c, v = _decode(row)
+        except ValueError:
+            problems.append(BlockProblem(block, first, "its arrays are not whole"))
+            continue
+        if not len(t) == len(c) == len(v) == n:
+            problems.append(BlockProblem(block, first, f"holds {len(t)} samples, not {n}"))
+        elif digest_arrays(t, c, v) != row.sha256:
+            problems.append(BlockProblem(block, first, "its values changed since import"))
+        parts.append((t, c, v))
+        expected_seq, expected_block = first + n, block + 1
+    if not parts:
+        empty = Samples(
+            np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int32), np.zeros(0, dtype=np.float64)
+        )
+        return empty, problems
+    samples = Samples(
+        np.concatenate([p[0] for p in parts]),
+        np.concatenate([p[1] for p in parts]),
+        np.concatenate([p[2] for p in parts]),
+    )
+    return samples, problems

@@ -79,25 +79,22 @@ class Item:
 
 
 def _sample_chunks(session: Session, raw: RawFile) -> list[Item]:
-    import numpy as np
+    from testplan.store.samples import digest_arrays, read_samples
 
-    from testplan.store.samples import digest_arrays, sample_table
-
-    data = sample_table(session, raw.id)
+    data = read_samples(session, raw.id)
     items = []
     for n, start in enumerate(range(0, max(len(data), 1), CHUNK_ROWS)):
-        block = data[start : start + CHUNK_ROWS]
+        stop = min(start + CHUNK_ROWS, len(data))
         digest = digest_arrays(
-            block[:, 1].astype(np.int64), block[:, 2].astype(np.int32), block[:, 3]
+            data.t_us[start:stop], data.channel[start:stop], data.value[start:stop]
         )
-        seqs = block[:, 0].astype(np.int64)
-        first, last = (int(seqs[0]), int(seqs[-1])) if len(seqs) else (0, -1)
+        first, last = (start, stop - 1) if stop > start else (0, -1)
         items.append(
             Item(
                 "sample_chunk",
                 f"{raw.id}:{n}",
                 f"samples of {raw.name}, chunk {n + 1} (rows {first + 1} to {last + 1})",
-                _h([digest, first, last, len(block)]),
+                _h([digest, first, last, stop - start]),
             )
         )
     return items

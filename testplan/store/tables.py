@@ -306,19 +306,19 @@ class LoggerChannel(SQLModel, table=True):
     specimen_id: uuid.UUID | None = Field(default=None, foreign_key="specimen.id")
 
 
-class Sample(SQLModel, table=True):
-    """One logged value. Written only by the bulk path in store/samples.py."""
+class SampleBlock(SQLModel, table=True):
+    """A block of up to 65,536 logged values of one import, as little-endian arrays.
+    Written and read only by store/samples.py."""
 
-    __tablename__ = "sample"
-    # On SQLite the rows live in the primary-key tree itself: a third faster to write.
-    __table_args__ = {"sqlite_with_rowid": False}
+    __tablename__ = "sample_block"
     raw_file_id: uuid.UUID = Field(foreign_key="raw_file.id", primary_key=True)
-    seq: int = Field(
-        sa_type=sa.BigInteger, primary_key=True, sa_column_kwargs={"autoincrement": False}
-    )
-    channel: int
-    t_us: int = Field(sa_type=sa.BigInteger)
-    value: float
+    block: int = Field(primary_key=True, sa_column_kwargs={"autoincrement": False})
+    first_seq: int = Field(sa_type=sa.BigInteger)
+    n: int
+    t_us: bytes = Field(sa_type=sa.LargeBinary)
+    channel: bytes = Field(sa_type=sa.LargeBinary)
+    value: bytes = Field(sa_type=sa.LargeBinary)
+    sha256: str = Field(max_length=64)
 
 
 class Attachment(SQLModel, table=True):

@@ -86,6 +86,32 @@ class Bench:
         finally:
             engine.dispose()
 
+    def samples(self) -> list[tuple[str, int, float]]:
+        """Every stored sample as (quantity, t_us, value), import by import in sequence
+        order, decoded from the blocks without the tool's reader."""
+        import numpy as np
+
+        channels = {
+            (str(f), n): q
+            for f, n, q in self.sql("SELECT raw_file_id, number, quantity FROM logger_channel")
+        }
+        out = []
+        for f, t, c, v in self.sql(
+            "SELECT b.raw_file_id, b.t_us, b.channel, b.value FROM sample_block b "
+            "JOIN raw_file r ON r.id = b.raw_file_id ORDER BY r.imported_at, b.block"
+        ):
+            for ti, ci, vi in zip(
+                np.frombuffer(t, "<i8").tolist(),
+                np.frombuffer(c, "<i4").tolist(),
+                np.frombuffer(v, "<f8").tolist(),
+                strict=True,
+            ):
+                out.append((channels[(str(f), ci)], ti, vi))
+        return out
+
+    def sample_count(self) -> int:
+        return int(self.sql("SELECT coalesce(sum(n), 0) FROM sample_block")[0][0])
+
     def raw(self, statement: str, **params: object) -> None:
         """Change the store behind the tool's back (tamper tests)."""
         engine = sa.create_engine(self.url)

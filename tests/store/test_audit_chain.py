@@ -5,8 +5,11 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import numpy as np
 import pytest
 import sqlalchemy as sa
+
+from testplan.store.samples import digest_arrays
 
 from .conftest import START, Bench
 
@@ -110,15 +113,51 @@ def test_a_deleted_audit_entry_is_found(recorded: Bench) -> None:
     ]
 
 
+def stored_block(bench: Bench) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    ((t, c, v),) = bench.sql("SELECT t_us, channel, value FROM sample_block")
+    return np.frombuffer(t, "<i8"), np.frombuffer(c, "<i4"), np.frombuffer(v, "<f8").copy()
+
+
 def test_a_changed_sample_is_found(recorded: Bench) -> None:
-    recorded.raw("UPDATE sample SET value = 2060 WHERE seq = 2")
-    assert problems(recorded)[0].endswith(": samples changed since import")
-    assert problems(recorded)[0].startswith("raw file tank-long.csv (")
+    _, _, v = stored_block(recorded)
+    v[2] = 2060.0
+    recorded.raw("UPDATE sample_block SET value = :v", v=v.astype("<f8").tobytes())
+    found = problems(recorded)
+    assert found[0].startswith("raw file tank-long.csv (")
+    assert found[0].endswith(": sample block 1 (from sample 1): its values changed since import")
+    assert found[1].endswith(": samples changed since import")
+
+
+def test_a_changed_sample_with_its_block_hash_recomputed_is_found(recorded: Bench) -> None:
+    # Whoever changes a value and re-hashes its block still meets the import's own hash.
+    t, c, v = stored_block(recorded)
+    v[2] = 2060.0
+    recorded.raw(
+        "UPDATE sample_block SET value = :v, sha256 = :h",
+        v=v.astype("<f8").tobytes(),
+        h=digest_arrays(t, c, v),
+    )
+    assert problems(recorded) == [
+        problems(recorded)[0].split(": ")[0] + ": samples changed since import"
+    ]
 
 
 def test_a_deleted_sample_is_found(recorded: Bench) -> None:
-    recorded.raw("DELETE FROM sample WHERE seq = 5")
-    assert problems(recorded)[0].endswith(": holds 5 samples, 6 were imported")
+    t, c, v = stored_block(recorded)
+    recorded.raw(
+        "UPDATE sample_block SET t_us = :t, channel = :c, value = :v",
+        t=t[:5].tobytes(),
+        c=c[:5].tobytes(),
+        v=v[:5].tobytes(),
+    )
+    found = problems(recorded)
+    assert found[0].endswith(": sample block 1 (from sample 1): holds 5 samples, not 6")
+    assert found[1].endswith(": holds 5 samples, 6 were imported")
+
+
+def test_a_deleted_sample_block_is_found(recorded: Bench) -> None:
+    recorded.raw("DELETE FROM sample_block")
+    assert problems(recorded)[0].endswith(": holds 0 samples, 6 were imported")
 
 
 def test_a_changed_raw_file_is_found(recorded: Bench) -> None:

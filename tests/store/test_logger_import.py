@@ -22,11 +22,7 @@ def running(bench: Bench) -> Bench:
 
 
 def samples(bench: Bench) -> list[tuple[str, str, float]]:
-    rows = bench.sql(
-        "SELECT c.quantity, s.t_us, s.value FROM sample s JOIN logger_channel c "
-        "ON c.raw_file_id = s.raw_file_id AND c.number = s.channel ORDER BY s.seq"
-    )
-    return [(q, t, round(v, 6)) for q, t, v in rows]
+    return [(q, t, round(v, 6)) for q, t, v in bench.samples()]
 
 
 # 2027-01-12T16:05:00Z in microseconds since the epoch.
@@ -136,19 +132,21 @@ def test_a_bad_line_mid_file_is_named_and_nothing_is_kept(running: Bench) -> Non
         line == f"error: {DATA / 'tank-bad-line.csv'}:5003: value: '20S.4' is not a finite number"
     )
     assert running.sql("SELECT count(*) FROM raw_file") == [(0,)]
-    assert running.sql("SELECT count(*) FROM sample") == [(0,)]
+    assert running.sample_count() == 0
     assert running.sql("SELECT count(*) FROM audit") == audit_before
 
 
 def test_a_failure_while_writing_samples_leaves_nothing(running: Bench) -> None:
-    # The sample table is swapped for one that refuses a depth of 2054 mm, so the store
-    # fails after the raw file, its channels and the first sample went in, in the same
-    # transaction; all of it must be rolled back.
+    # The sample-block table is swapped for one that refuses every block, so the store
+    # fails after the raw file and its channels went in, in the same transaction; all of
+    # it must be rolled back.
     uuid_type = "UUID" if running.url.startswith("postgresql") else "CHAR(32)"
-    running.raw("ALTER TABLE sample RENAME TO sample_away")
+    blob = "BYTEA" if running.url.startswith("postgresql") else "BLOB"
+    running.raw("ALTER TABLE sample_block RENAME TO sample_away")
     running.raw(
-        f"CREATE TABLE sample (raw_file_id {uuid_type}, seq BIGINT, channel INTEGER, "
-        "t_us BIGINT, value FLOAT, CHECK (value <> 2054))"
+        f"CREATE TABLE sample_block (raw_file_id {uuid_type}, block INTEGER, "
+        f"first_seq BIGINT, n INTEGER, t_us {blob}, channel {blob}, value {blob}, "
+        "sha256 VARCHAR(64), CHECK (n < 0))"
     )
     line = running.fail(
         "record",
@@ -163,8 +161,8 @@ def test_a_failure_while_writing_samples_leaves_nothing(running: Bench) -> None:
         "AK",
     )
     assert "refused the change" in line
-    running.raw("DROP TABLE sample")
-    running.raw("ALTER TABLE sample_away RENAME TO sample")
+    running.raw("DROP TABLE sample_block")
+    running.raw("ALTER TABLE sample_away RENAME TO sample_block")
     assert running.sql("SELECT count(*) FROM raw_file") == [(0,)]
     assert running.sql("SELECT count(*) FROM logger_channel") == [(0,)]
 
@@ -262,7 +260,7 @@ def test_bad_files_are_refused_in_one_line(
     path = write(running, text)
     line = running.fail("record", "import", RUN, path, "--map", LEVEL, *args, "--by", "AK")
     assert expected in line
-    assert running.sql("SELECT count(*) FROM sample") == [(0,)]
+    assert running.sample_count() == 0
 
 
 def test_wrong_encoding_is_named_with_its_line(running: Bench) -> None:

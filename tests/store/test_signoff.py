@@ -157,7 +157,8 @@ def test_approval_locks_the_campaign(judged: Bench) -> None:
     ("statement", "named"),
     [
         (
-            "UPDATE sample SET value = 2000 WHERE seq = 100",
+            # every value overwritten by the bytes of its time stamp
+            "UPDATE sample_block SET value = t_us",
             "samples of tank.csv, chunk 1 (rows 1 to 4400): changed",
         ),
         (
@@ -186,6 +187,28 @@ def test_a_direct_edit_is_refused_by_postgresql_or_named_by_verify(
     judged.raw(statement)
     found = problems(judged, pdf)
     assert any(p.startswith(named) for p in found), found
+
+
+def test_signatures_made_before_the_sample_block_upgrade_still_verify(judged: Bench) -> None:
+    """Samples stored a row each (schema 0008) move into blocks (0009): manifests hash the
+    same values in the same order, so an issued report still verifies afterwards."""
+    from alembic import command
+
+    from testplan.store.engine import _alembic_config, make_engine
+
+    pdf = approve_and_issue(judged)
+    before = judged.sample_count()
+    engine = make_engine(judged.url)
+    try:
+        with engine.begin() as conn:
+            command.downgrade(_alembic_config(conn), "0008")
+    finally:
+        engine.dispose()
+    assert judged.sql("SELECT count(*) FROM sample") == [(before,)]
+    assert "upgraded the store from schema 0008" in judged("store", "upgrade").stdout
+    assert judged.sample_count() == before
+    assert judged("verify", str(pdf)).stdout.splitlines()[-1] == f"verified: {pdf}"
+    assert judged("store", "check").stdout.startswith("ok: ")
 
 
 def test_a_changed_pdf_byte_fails(judged: Bench) -> None:
