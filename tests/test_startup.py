@@ -64,8 +64,8 @@ def heavy_loaded_by(code: str) -> set[str]:
 
 
 def test_plan_loads_only_units_and_tables() -> None:
-    # planning needs the units library (and whatever it loads itself), rich for the
-    # tables and pydantic for typer's parameter coercion; no pandas, SQLAlchemy, ...
+    # planning needs the units library (and whatever it loads itself) and pydantic for
+    # typer's parameter coercion; no pandas, SQLAlchemy, rich, ...
     units = heavy_loaded_by("import pint; pint.UnitRegistry()")
     assert "pint" in units
-    assert loaded_after(["plan", str(SAMPLE)]) - units <= {"rich", "pydantic"}
+    assert loaded_after(["plan", str(SAMPLE)]) - units <= {"pydantic"}

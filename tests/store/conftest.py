@@ -3,6 +3,7 @@ given in TESTPLAN_TEST_PG_URL (.ci/run starts one), on a fresh PostgreSQL databa
 
 from __future__ import annotations
 
+import datetime as dt
 import os
 import uuid
 from collections.abc import Iterator
@@ -145,7 +146,11 @@ START = (
 @pytest.fixture
 def bench(db_url: str, tmp_path: Path) -> Bench:
     """A store holding the sample campaign, three people and one calibrated instrument."""
-    b = Bench(db_url, tmp_path)
+    return stock(Bench(db_url, tmp_path))
+
+
+def stock(b: Bench) -> Bench:
+    """Fill an empty store with the sample campaign, three people and PT-03."""
     b("init", str(SAMPLE), "--quiet")
     b("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator", "--quiet")
     b(
@@ -215,3 +220,94 @@ def bench(db_url: str, tmp_path: Path) -> Bench:
             "--quiet",
         )
     return b
+
+
+RUN = "water-8@ip-verification-1"
+PASS = "a demo passphrase"
+
+
+def record_and_judge(bench: Bench) -> Bench:
+    """One run recorded, checked and judged; RP, LV, MO hold registered keys (the key
+    passphrase comes from $TESTPLAN_KEY_PASSPHRASE, set to PASS by the caller)."""
+    bench("people", "add", "RP", "--name", "Rita Pereira", "--role", "preparer", "--quiet")
+    bench(
+        "people",
+        "add",
+        "LV",
+        "--name",
+        "Lars Vik",
+        "--role",
+        "reviewer",
+        "--role",
+        "preparer",
+        "--quiet",
+    )
+    bench("people", "authorise", "MO", "--role", "approver", "--quiet")
+    for who in ("RP", "LV", "MO"):
+        result = bench.plain("keys", "new", who, "--out", str(bench.folder / f"{who}.pem"))
+        assert result.stdout.startswith(f"{who}: key ")
+        bench(
+            "keys",
+            "register",
+            who,
+            "--public",
+            str(bench.folder / f"{who}.pem.pub"),
+            "--by",
+            "MO",
+            "--quiet",
+        )
+    bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
+    t0 = dt.datetime(2027, 1, 12, 16, 5, tzinfo=dt.UTC)
+    rows = ["time,depth"] + [
+        f"{t0 + dt.timedelta(minutes=m):%Y-%m-%dT%H:%M:%SZ},2100" for m in range(4400)
+    ]
+    tank = bench.write("tank.csv", "\n".join(rows) + "\n")
+    bench(
+        "record",
+        "import",
+        RUN,
+        str(tank),
+        "--map",
+        "depth[mm]=lowest_point_depth@PT-03",
+        "--by",
+        "AK",
+        "--quiet",
+    )
+    bench(
+        "record",
+        "observe",
+        RUN,
+        "--specimen",
+        "QC-2027-014-S01",
+        "--ingress",
+        "water:none",
+        "--by",
+        "AK",
+        "--quiet",
+    )
+    bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
+    bench("record", "check", RUN, "--by", "MO", "--at", "2027-01-16T09:00Z", "--quiet")
+    bench("judge", "--quiet", ok=False)
+    return bench
+
+
+def sign(b: Bench, role: str, who: str, key: str | None = None) -> list[str]:
+    return [
+        "sign",
+        "QC-2027-014",
+        "--role",
+        role,
+        "--as",
+        who,
+        "--key",
+        str(b.folder / f"{key or who}.pem"),
+    ]
+
+
+def approve_and_issue(b: Bench, name: str = "report.pdf") -> Path:
+    b(*sign(b, "prepared", "RP"), "--quiet")
+    b(*sign(b, "reviewed", "LV"), "--quiet")
+    b(*sign(b, "approved", "MO"), "--quiet")
+    pdf = b.folder / name
+    b("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01", "--quiet")
+    return pdf
