@@ -162,9 +162,9 @@ def _layout(plan: Plan, width: int) -> list[str]:
     )
     sched = plan.schedule
     critical = set(sched["critical_path"])
-    rows = []
+    runs: list[tuple[str, ...]] = []
     for r in sorted(sched["runs"], key=lambda r: (r["start"], r["id"])):
-        rows.append(
+        runs.append(
             (
                 _when(r["start"], short=True),
                 _when(r["end"], short=True),
@@ -176,9 +176,9 @@ def _layout(plan: Plan, width: int) -> list[str]:
     lines += ["", "Calendar (* on the critical path)", "-" * width]
     lines += _table(
         ("start", "end", "run", "facility", "specimens"),
-        rows,
+        runs,
         width,
-        fixed=(16, 16, _fit([r[2] for r in rows], 40), None, None),
+        fixed=(16, 16, _fit([r[2] for r in runs], 40), None, None),
     )
     lines += ["", "Facility use", "-" * width]
     lines += _table(
