@@ -150,9 +150,8 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
             serial = specimens[o.specimen_id].serial if o.specimen_id in specimens else "run"
             add("observation", o, f"observation {o.kind} on {serial} in {run.key}", _row(o))
             people.add(o.recorded_by_id)
-            if o.attachment_id:
-                att = session.get(Attachment, o.attachment_id)
-                assert att is not None
+            att = session.get(Attachment, o.attachment_id) if o.attachment_id else None
+            if att is not None:  # a missing one shows as deleted
                 body = _row(att, "content")
                 body["content_sha256"] = hashlib.sha256(att.content).hexdigest()
                 add("attachment", att, f"photo {att.name}", body)
@@ -161,11 +160,12 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
             for v in session.exec(select(VerdictRecord).where(VerdictRecord.judgement_id == j.id)):
                 who = specimens[v.specimen_id].serial if v.specimen_id in specimens else "all"
                 add("verdict", v, f"verdict {v.criterion_key} ({who}) of {run.key}", _row(v))
+    # Records referred to but no longer there are left out: verify names them as deleted.
     for cid in calibrations:
         cal = session.get(Calibration, cid)
-        assert cal is not None
-        eq = session.get(Equipment, cal.equipment_id)
-        assert eq is not None
+        eq = session.get(Equipment, cal.equipment_id) if cal is not None else None
+        if cal is None or eq is None:
+            continue
         add(
             "calibration",
             cal,
@@ -174,7 +174,8 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
         )
     for pid in people:
         person = session.get(Person, pid)
-        assert person is not None
+        if person is None:
+            continue
         add(
             "person",
             person,

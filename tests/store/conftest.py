@@ -226,9 +226,10 @@ RUN = "water-8@ip-verification-1"
 PASS = "a demo passphrase"
 
 
-def record_and_judge(bench: Bench) -> Bench:
+def record_and_judge(bench: Bench, *, deviation: bool = False) -> Bench:
     """One run recorded, checked and judged; RP, LV, MO hold registered keys (the key
-    passphrase comes from $TESTPLAN_KEY_PASSPHRASE, set to PASS by the caller)."""
+    passphrase comes from $TESTPLAN_KEY_PASSPHRASE, set to PASS by the caller). With
+    ``deviation`` the run also carries an approved deviation."""
     bench("people", "add", "RP", "--name", "Rita Pereira", "--role", "preparer", "--quiet")
     bench(
         "people",
@@ -285,6 +286,21 @@ def record_and_judge(bench: Bench) -> Bench:
         "AK",
         "--quiet",
     )
+    if deviation:
+        bench(
+            "record",
+            "deviation",
+            RUN,
+            "--description",
+            "tank topped up for 3 min",
+            "--reason",
+            "slow leak at the tank valve",
+            "--approved-by",
+            "MO",
+            "--by",
+            "AK",
+            "--quiet",
+        )
     bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
     bench("record", "check", RUN, "--by", "MO", "--at", "2027-01-16T09:00Z", "--quiet")
     bench("judge", "--quiet", ok=False)
