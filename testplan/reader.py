@@ -772,6 +772,10 @@ def load_toml(path: Path, what: str) -> tuple[dict[str, Any], str, dict[str, int
         toml_line = int(pos[1]) if pos else None
         col = int(pos[2]) if pos else None
         reason = _TOML_POS.sub("", msg).strip()
+        if pos is None and "(at end of document)" in reason:
+            # the file stops in the middle of something: point at its last line
+            reason = reason.replace("(at end of document)", "at the end of the file").strip()
+            toml_line = max(text.count("\n") + (0 if text.endswith("\n") else 1), 1)
         raise CampaignFileError(
             f"TOML syntax error: {reason}", file=path, line=toml_line, column=col
         ) from err

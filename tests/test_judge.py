@@ -7,6 +7,7 @@ a real run is judged on.
 
 from __future__ import annotations
 
+import copy
 import datetime as dt
 from pathlib import Path
 from typing import Any
@@ -376,6 +377,33 @@ def test_ingress_function_and_missing_observations() -> None:
     function = {v.specimen: v for v in verdicts(data, SIMPLE, "function")}
     assert function["S01"].outcome == J.PASS
     assert function["S02"].outcome == J.NO_DATA
+
+
+def test_ingress_that_is_not_harmful_passes_a_no_harmful_criterion() -> None:
+    # source: IEC 60529 cl. 14.3 (from memory): for numerals up to 8, water may enter if
+    # it does not interfere with operation or impair safety
+    proc = copy.deepcopy(procedure("water-6"))
+    for c in proc["criteria"]:
+        if c["quantity"] == "water_ingress":
+            c["comparison"] = "no_harmful"
+    obs = [
+        J.Obs("ingress", "S01", {"medium": "water", "found": True, "harmful": False}, T0, "a"),
+        J.Obs("ingress", "S02", {"medium": "water", "found": True, "harmful": True}, T0, "b"),
+        J.Obs("ingress", "S03", {"medium": "water", "found": True}, T0, "c"),
+    ]
+    data = J.RunData(
+        key="water-6@leg-1",
+        procedure=proc,
+        specimens=["S01", "S02", "S03"],
+        started_at=T0,
+        finished_at=T0 + dt.timedelta(minutes=5),
+        series=[],
+        observations=obs,
+    )
+    found = {v.specimen: v for v in verdicts(data, SIMPLE, "water_ingress")}
+    assert found["S01"].outcome == J.PASS and found["S01"].detail == "found, not harmful"
+    assert found["S02"].outcome == J.FAIL
+    assert found["S03"].outcome == J.NO_DATA  # whether it is harmful was not recorded
 
 
 def test_every_sample_criterion_has_a_judge() -> None:

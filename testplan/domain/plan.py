@@ -13,7 +13,7 @@ PLAN_SCHEMA_VERSION = 1
 
 Provenance = Literal["computed", "declared", "confirmed", "from memory"]
 When = Literal["whole_run", "at_start", "per_period", "at_checkpoints", "at_end", "outcome"]
-Comparison = Literal[">=", "<=", "between", "equals", "none_found", "no_harmful", "pass"]
+Comparison = Literal[">=", "<=", "between", "none_found", "no_harmful", "pass"]
 
 PRECEDENCE_NOTE = (
     "This plan summarises the methods for planning. The current edition of the governing "

@@ -529,6 +529,29 @@ def _numbers(
     return np.asarray(values, dtype=np.float64)
 
 
+def _in_range(
+    values: npt.NDArray[np.float64],
+    lines: npt.NDArray[Any],
+    ch: npt.NDArray[Any],
+    maps: list[ChannelMapping],
+    name: str,
+    column: str,
+) -> None:
+    """A finite reading can overflow once converted to the plan unit (1e308 cm in mm)."""
+    import numpy as np
+
+    bad = ~np.isfinite(values)
+    if bad.any():
+        i = int(np.argmax(bad))
+        m = maps[int(ch[i])]
+        raise LoggerFileError(
+            f"the {m.source!r} reading is out of range once converted to {m.plan_unit}",
+            file=name,
+            line=int(lines[i]),
+            key=column,
+        )
+
+
 def _rising(
     t: npt.NDArray[np.int64],
     ch: npt.NDArray[np.int32],
@@ -619,7 +642,9 @@ def _long(
     _rising(t, ch, lines[keep], name, df.columns[0], maps)
     scale = np.array([m.scale for m in maps])[ch]
     offset = np.array([m.offset for m in maps])[ch]
-    return t, ch, values * scale + offset
+    converted = values * scale + offset
+    _in_range(converted, lines[keep], ch, maps, name, value_column)
+    return t, ch, converted
 
 
 def _wide(
@@ -679,6 +704,12 @@ def _wide(
     scale = np.array([m.scale for m in maps])
     offset = np.array([m.offset for m in maps])
     block = block * scale + offset
+    for j in range(k):
+        column = block[:, j]
+        given = ~np.isnan(column)
+        _in_range(
+            column[given], lines[given], np.full(int(given.sum()), j), maps, name, maps[j].source
+        )
     flat = block.reshape(-1)
     present = ~np.isnan(flat)
     t = np.repeat(t_us, k)[present]

@@ -155,6 +155,7 @@ def text(report: tuple[Path, list[str], PdfReader]) -> str:
         "QC-2027-014-S01 ip-verification 2027-01-06 new, sealed carton",  # g) h) items, receipt
         "Dates of test 2027-01-12 to 2027-01-16",  # i)
         "Date of issue 2027-02-01",  # j)
+        "the laboratory did not sample them",  # k) no sampling plan: the client supplied them
         "The results in this report relate only to the items tested",  # l)
         "tank topped up during the run evaporation Mark Osei (MO)",  # n) deviation, who allowed
         "Not yet prepared, reviewed and approved",  # o) authorisation (draft)
