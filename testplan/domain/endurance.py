@@ -161,20 +161,23 @@ def endurance_procedure(item: Endurance) -> Procedure:
     """The cycle-endurance procedure for one item, with statistics and design check."""
     key = f"endurance[{item.index}]"
     n = item.rig_specimens
-    cycles = cycles_to_demonstrate(
-        item.rated_cycles,
-        item.reliability,
-        item.confidence,
-        n,
-        item.weibull_shape,
-        item.allowed_failures,
-    )
-    cycles_r0 = cycles_to_demonstrate(
-        item.rated_cycles, item.reliability, item.confidence, n, item.weibull_shape, 0
-    )
-    cycles_r1 = cycles_to_demonstrate(
-        item.rated_cycles, item.reliability, item.confidence, n, item.weibull_shape, 1
-    )
+    try:
+        cycles = cycles_to_demonstrate(
+            item.rated_cycles,
+            item.reliability,
+            item.confidence,
+            n,
+            item.weibull_shape,
+            item.allowed_failures,
+        )
+        cycles_r0 = cycles_to_demonstrate(
+            item.rated_cycles, item.reliability, item.confidence, n, item.weibull_shape, 0
+        )
+        cycles_r1 = cycles_to_demonstrate(
+            item.rated_cycles, item.reliability, item.confidence, n, item.weibull_shape, 1
+        )
+    except PlanningError as err:
+        raise err.located(key=f"{key}.weibull_shape") from None
     n_success = success_run_sample_size(item.reliability, item.confidence)
     rig_hours = cycles / item.rate_per_min / 60.0
     pid = f"endurance-{slug(item.name)}"

@@ -82,7 +82,14 @@ def build_plan(c: Campaign) -> Plan:
             "Implied numerals are listed, not tested; set test_implied = true in "
             "[target] to plan them too."
         )
-    schedule = lay_out(c, procs)
+    try:
+        schedule = lay_out(c, procs)
+    except OverflowError:
+        raise PlanningError(
+            "the calendar would run past the year 9999",
+            key="calendar.start",
+            fix="check the durations, rates and cycle counts",
+        ) from None
     if schedule is None:
         return Plan(campaign=campaign_summary(c), procedures=tuple(procs), notes=tuple(notes))
     if schedule.unallocated:

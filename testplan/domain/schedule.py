@@ -208,6 +208,10 @@ def _between(group: str, next_group: str | None, between_h: float) -> tuple[str,
     return None
 
 
+# No run is scheduled that lasts longer than this (ten years): a value is wrong.
+MAX_RUN_H = 10 * 365.25 * 24
+
+
 def lay_out(campaign: Campaign, procs: list[Procedure]) -> Schedule | None:
     """Allocate specimens to legs and schedule every run; None when the file has no legs.
 
@@ -222,6 +226,15 @@ def lay_out(campaign: Campaign, procs: list[Procedure]) -> Schedule | None:
             fix="add [calendar] start = 2027-01-11",
         )
     check_legs(campaign, procs)
+    for i, leg in enumerate(campaign.legs, start=1):
+        for group in leg.tests:
+            for proc in procs:
+                if proc.group == group and proc.duration_h > MAX_RUN_H:
+                    raise PlanningError(
+                        f"{proc.id} would take {proc.duration_h:.3g} h, more than ten years",
+                        key=f"leg[{i}].tests",
+                        fix="check the rate, cycle count or duration that sets it",
+                    )
     cal = campaign.calendar
     clock = _Clock(cal)
     start = clock.hands_on(dt.datetime.combine(cal.start, dt.time(cal.day_start_h, 0)))

@@ -62,6 +62,11 @@ def chi2_quantile_even(probability: float, dof: int) -> float:
     return (lo + hi) / 2.0
 
 
+# Beyond this many lifetimes per specimen the numbers stop meaning anything (and soon
+# overflow); a Weibull shape near zero gets there.
+MAX_LENGTH_RATIO = 1e9
+
+
 def length_ratio(
     reliability: float, confidence: float, specimens: int, shape: float, failures: int = 0
 ) -> float:
@@ -81,7 +86,15 @@ def length_ratio(
         need = math.log(1.0 - confidence) / math.log(reliability)
     else:
         need = chi2_quantile_even(confidence, 2 * failures + 2) / (2.0 * -math.log(reliability))
-    return float((need / specimens) ** (1.0 / shape))
+    log_ratio = math.log(need / specimens) / shape
+    if log_ratio > math.log(MAX_LENGTH_RATIO):
+        raise PlanningError(
+            f"demonstrating R = {reliability:g} at C = {confidence:g} with {specimens} "
+            f"specimen(s) and a Weibull shape of {shape:g} needs more than "
+            f"{MAX_LENGTH_RATIO:g} times the rated cycles on each specimen",
+            fix="check the Weibull shape, or test more specimens",
+        )
+    return math.exp(log_ratio)
 
 
 def cycles_to_demonstrate(

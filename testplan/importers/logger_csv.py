@@ -310,7 +310,12 @@ def _decode(content: bytes, name: str, encoding: str) -> str:
             line=line,
             fix="give the file's encoding with --encoding, e.g. cp1252",
         ) from None
-    return text.removeprefix("\ufeff")
+    text = text.removeprefix("\ufeff")
+    if "\r" in text:
+        # Windows (CRLF) and old Mac (CR) line ends: one line end for every reader here,
+        # so line numbers in messages agree with the parser's (the stored bytes are kept).
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+    return text
 
 
 def _head(text: str, n: int) -> list[str]:
@@ -327,15 +332,18 @@ class _Lines:
 
     def __getitem__(self, i: int) -> str:
         if self._lines is None:
-            self._lines = self.text.splitlines()
+            self._lines = self.text.split("\n")  # as the parser counts lines
         return self._lines[i]
 
 
 def _header(text: str, delimiter: str, skip_lines: int) -> list[str]:
     import csv
 
-    for row in csv.reader(_head(text, skip_lines + 1)[skip_lines:], delimiter=delimiter):
-        return [c.strip() for c in row]
+    try:
+        for row in csv.reader(_head(text, skip_lines + 1)[skip_lines:], delimiter=delimiter):
+            return [c.strip() for c in row]
+    except csv.Error:
+        pass  # the parser names the line
     return []
 
 
@@ -346,7 +354,10 @@ def _first_row_fits(text: str, delimiter: str, skip_lines: int, name: str) -> No
     head = _head(text, skip_lines + 2)[skip_lines:]
     if len(head) < 2 or not head[1].strip():
         return
-    header, first = csv.reader(head, delimiter=delimiter)
+    try:
+        header, first = csv.reader(head, delimiter=delimiter)
+    except csv.Error:
+        return  # the parser names the line
     if len(first) > len(header):
         raise LoggerFileError(
             f"line {skip_lines + 2}: expected {len(header)} fields, found {len(first)} "
@@ -483,7 +494,7 @@ def _cell(source_lines: _Lines, line: int, column: str, header_line: int) -> str
         header = next(csv.reader([source_lines[header_line - 1]]))
         row = next(csv.reader([source_lines[line - 1]]))
         return row[[h.strip() for h in header].index(column)].strip()
-    except (IndexError, ValueError, StopIteration):
+    except (IndexError, ValueError, StopIteration, csv.Error):
         return ""
 
 
@@ -642,7 +653,8 @@ def _long(
     _rising(t, ch, lines[keep], name, df.columns[0], maps)
     scale = np.array([m.scale for m in maps])[ch]
     offset = np.array([m.offset for m in maps])[ch]
-    converted = values * scale + offset
+    with np.errstate(over="ignore", invalid="ignore"):  # overflow is named just below
+        converted = values * scale + offset
     _in_range(converted, lines[keep], ch, maps, name, value_column)
     return t, ch, converted
 
@@ -703,7 +715,8 @@ def _wide(
         )
     scale = np.array([m.scale for m in maps])
     offset = np.array([m.offset for m in maps])
-    block = block * scale + offset
+    with np.errstate(over="ignore", invalid="ignore"):  # overflow is named just below
+        block = block * scale + offset
     for j in range(k):
         column = block[:, j]
         given = ~np.isnan(column)

@@ -313,3 +313,58 @@ def test_a_bad_logger_file_leaves_the_store_as_it_was(
     assert result.stderr.count("\n") == 1 and result.stderr.startswith(f"error: {path}")
     after = [bench.sql(f"SELECT count(*) FROM {t}") for t in ("raw_file", "audit", "sample_block")]
     assert after == before
+
+
+# Cases the fuzzing found, kept as plain tests.
+
+
+@pytest.mark.parametrize(
+    ("line", "text", "named"),
+    [
+        (58, "weibull_shape = 0.02", ":58: endurance[1].weibull_shape: "),
+        (60, 'rate = "0.00001 cycle/min"', ": leg[2].tests: endurance-mode-selector-knob "),
+        (35, 'immersion_duration = "9e9 h"', ": leg[1].tests: water-8 would take"),
+    ],
+)
+def test_campaign_values_that_overflowed_are_refused_in_one_line(
+    tmp_path: Path, line: int, text: str, named: str
+) -> None:
+    lines = SAMPLE_TEXT.splitlines()
+    assert lines[line - 1].split(" = ")[0] == text.split(" = ")[0]
+    lines[line - 1] = text
+    path = tmp_path / "campaign.toml"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    result = CliRunner().invoke(app, ["plan", str(path)])
+    assert result.exit_code == 1, result.stderr
+    assert result.stderr.count("\n") == 1 and named in result.stderr, result.stderr
+
+
+def test_a_campaign_cut_off_mid_value_names_its_last_line(tmp_path: Path) -> None:
+    path = tmp_path / "campaign.toml"
+    path.write_text(SAMPLE_TEXT[: SAMPLE_TEXT.index('"IP66/IP68"') + 4], encoding="utf-8")
+    result = CliRunner().invoke(app, ["plan", str(path)])
+    assert result.exit_code == 1
+    last = path.read_text(encoding="utf-8").count("\n") + 1
+    assert result.stderr.startswith(f"error: {path}:{last}: TOML syntax error: ")
+
+
+def test_a_reading_that_overflows_in_the_plan_unit_is_named() -> None:
+    lines = SAMPLE_LOG.splitlines()
+    lines[1] = lines[1].rsplit(",", 1)[0] + ",1E308"  # cm: beyond float range in mm
+    with pytest.raises(TestplanError) as caught:
+        read_logger_bytes(("\n".join(lines) + "\n").encode(), "tank.csv", MAPS)
+    assert caught.value.one_line().startswith("tank.csv:2: value: the 'level' reading is out of")
+
+
+def test_carriage_returns_inside_a_file_are_line_ends() -> None:
+    crlf = SAMPLE_LOG.replace("\n", "\r\n").encode()
+    cr = SAMPLE_LOG.replace("\n", "\r").encode()
+    plain = read_logger_bytes(SAMPLE_LOG.encode(), "tank.csv", MAPS)
+    for content in (crlf, cr):
+        logged = read_logger_bytes(content, "tank.csv", MAPS)
+        assert logged.value.tolist() == plain.value.tolist()
+    lines = SAMPLE_LOG.splitlines()
+    lines[1] = lines[1].replace("level", "lev\rel")  # a stray CR splits the row in two
+    with pytest.raises(TestplanError) as caught:
+        read_logger_bytes(("\n".join(lines) + "\n").encode(), "tank.csv", MAPS)
+    assert caught.value.file == "tank.csv" and caught.value.line is not None
