@@ -24,6 +24,8 @@ from tests.store.conftest import PASS, RUN, START, Bench, record_and_judge, sign
 
 from .conftest import Signed
 
+pytestmark = pytest.mark.slow  # each test runs and kills several processes
+
 TESTPLAN = str(Path(sys.executable).parent / "testplan")
 FRACTIONS = (0.3, 0.45, 0.6, 0.7, 0.8, 0.9, 1.0, 1.2)
 ROWS = 150_000
