@@ -84,6 +84,11 @@ MAPS = [
 ]
 
 
+def import_cmd(csv: Path, db: str) -> list[str]:
+    """`testplan record import` of the long file into the bench run."""
+    return [TESTPLAN, "record", "import", RUN, str(csv), *MAPS, "--by", "AK", "--db", db, "-q"]
+
+
 def long_csv(path: Path, rows: int = 1_000_000) -> Path:
     """A long-format logger file: 4 channels, 1 s steps, rows/4 time stamps, UTC."""
     import datetime as dt

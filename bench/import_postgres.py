@@ -11,7 +11,7 @@ import tempfile
 import uuid
 from pathlib import Path
 
-from common import MAPS, RUN, TESTPLAN, bench_store, long_csv, median_of, report, run_timed
+from common import bench_store, import_cmd, long_csv, median_of, report, run_timed
 
 BASELINE = """
 import hashlib, sys, uuid
@@ -65,21 +65,7 @@ def main() -> int:
             urls.append(bench_store(work, fresh_db()))
 
         ours = median_of(
-            lambda: run_timed(
-                [
-                    TESTPLAN,
-                    "record",
-                    "import",
-                    RUN,
-                    str(csv),
-                    *MAPS,
-                    "--by",
-                    "AK",
-                    "--db",
-                    urls[-1],
-                    "-q",
-                ]
-            ),
+            lambda: run_timed(import_cmd(csv, urls[-1])),
             before=prepare,
         )
         ok = report("import 1M rows into PostgreSQL", ours, base, 1.5, peak_limit_mb=400)

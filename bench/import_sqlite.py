@@ -8,7 +8,7 @@ import sys
 import tempfile
 from pathlib import Path
 
-from common import MAPS, RUN, TESTPLAN, bench_store, long_csv, median_of, report, run_timed
+from common import bench_store, import_cmd, long_csv, median_of, report, run_timed
 
 BASELINE = """
 import hashlib, sqlite3, sys, uuid
@@ -50,21 +50,7 @@ def main() -> int:
             lambda: run_timed([sys.executable, str(script), str(csv), str(base_db)]), before=fresh
         )
         ours = median_of(
-            lambda: run_timed(
-                [
-                    TESTPLAN,
-                    "record",
-                    "import",
-                    RUN,
-                    str(csv),
-                    *MAPS,
-                    "--by",
-                    "AK",
-                    "--db",
-                    str(db),
-                    "-q",
-                ]
-            ),
+            lambda: run_timed(import_cmd(csv, str(db))),
             before=fresh,
         )
         ok = report("import 1M rows into SQLite", ours, base, 1.5, peak_limit_mb=400)

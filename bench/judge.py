@@ -9,7 +9,6 @@ every command, is measured by startup.py.
 from __future__ import annotations
 
 import json
-import os
 import resource
 import shutil
 import subprocess
@@ -17,7 +16,7 @@ import sys
 import tempfile
 from pathlib import Path
 
-from common import MAPS, RUN, RUNS, TESTPLAN, bench_store, long_csv, median_of, report, run_timed
+from common import MAPS, RUN, RUNS, bench_store, long_csv, report
 
 WARM = """
 import json, shutil, statistics, sys, time
@@ -51,30 +50,6 @@ for i in range(runs + 1):
         judges.append(judged)
 print(json.dumps([statistics.median(imports), statistics.median(judges)]))
 """
-
-
-def imported_store(work: Path) -> tuple[str, tuple[float, float]]:
-    """A store with the 1M-sample file imported into a finished run, and the import time
-    of a whole `testplan record import` process (used by manifest.py)."""
-    csv = long_csv(work / "log.csv")
-    template = Path(bench_store(work).removeprefix("sqlite:///"))
-    db = work / "store.db"
-
-    def fresh() -> None:
-        for suffix in ("", "-wal", "-shm"):
-            Path(f"{db}{suffix}").unlink(missing_ok=True)
-        shutil.copy(template, db)
-
-    cmd = [TESTPLAN, "record", "import", RUN, str(csv), *MAPS, "--by", "AK", "--db", str(db), "-q"]
-    imported = median_of(lambda: run_timed(cmd), before=fresh)
-    env = {**os.environ, "TESTPLAN_DB": str(db)}
-    subprocess.run(
-        [TESTPLAN, "record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "-q"],
-        check=True,
-        env=env,
-        stdout=subprocess.DEVNULL,
-    )
-    return str(db), imported
 
 
 def main() -> int:

@@ -227,14 +227,13 @@ def lay_out(campaign: Campaign, procs: list[Procedure]) -> Schedule | None:
         )
     check_legs(campaign, procs)
     for i, leg in enumerate(campaign.legs, start=1):
-        for group in leg.tests:
-            for proc in procs:
-                if proc.group == group and proc.duration_h > MAX_RUN_H:
-                    raise PlanningError(
-                        f"{proc.id} would take {proc.duration_h:.3g} h, more than ten years",
-                        key=f"leg[{i}].tests",
-                        fix="check the rate, cycle count or duration that sets it",
-                    )
+        too_long = [p for p in procs if p.group in leg.tests and p.duration_h > MAX_RUN_H]
+        if too_long:
+            raise PlanningError(
+                f"{too_long[0].id} would take {too_long[0].duration_h:.3g} h, more than ten years",
+                key=f"leg[{i}].tests",
+                fix="check the rate, cycle count or duration that sets it",
+            )
     cal = campaign.calendar
     clock = _Clock(cal)
     start = clock.hands_on(dt.datetime.combine(cal.start, dt.time(cal.day_start_h, 0)))

@@ -540,18 +540,23 @@ def _numbers(
     return np.asarray(values, dtype=np.float64)
 
 
-def _in_range(
+def _in_plan_units(
     values: npt.NDArray[np.float64],
+    ch: npt.NDArray[np.int32],
     lines: npt.NDArray[Any],
-    ch: npt.NDArray[Any],
     maps: list[ChannelMapping],
     name: str,
-    column: str,
-) -> None:
-    """A finite reading can overflow once converted to the plan unit (1e308 cm in mm)."""
+    column: str | None,
+) -> npt.NDArray[np.float64]:
+    """Readings converted with their channel's scale and offset. A finite reading can
+    overflow in the plan unit (1e308 cm in mm): that one is named by its line."""
     import numpy as np
 
-    bad = ~np.isfinite(values)
+    scale = np.array([m.scale for m in maps])[ch]
+    offset = np.array([m.offset for m in maps])[ch]
+    with np.errstate(over="ignore", invalid="ignore"):  # named just below
+        converted = values * scale + offset
+    bad = ~np.isfinite(converted)
     if bad.any():
         i = int(np.argmax(bad))
         m = maps[int(ch[i])]
@@ -559,8 +564,9 @@ def _in_range(
             f"the {m.source!r} reading is out of range once converted to {m.plan_unit}",
             file=name,
             line=int(lines[i]),
-            key=column,
+            key=column or m.source,
         )
+    return np.asarray(converted, dtype=np.float64)
 
 
 def _rising(
@@ -651,12 +657,7 @@ def _long(
     ch = codes[keep].astype(np.int32)
     t = t_us[keep]
     _rising(t, ch, lines[keep], name, df.columns[0], maps)
-    scale = np.array([m.scale for m in maps])[ch]
-    offset = np.array([m.offset for m in maps])[ch]
-    with np.errstate(over="ignore", invalid="ignore"):  # overflow is named just below
-        converted = values * scale + offset
-    _in_range(converted, lines[keep], ch, maps, name, value_column)
-    return t, ch, converted
+    return t, ch, _in_plan_units(values, ch, lines[keep], maps, name, value_column)
 
 
 def _wide(
@@ -713,18 +714,9 @@ def _wide(
             key=time_column,
             fix="times must rise; remove duplicated or out-of-order lines",
         )
-    scale = np.array([m.scale for m in maps])
-    offset = np.array([m.offset for m in maps])
-    with np.errstate(over="ignore", invalid="ignore"):  # overflow is named just below
-        block = block * scale + offset
-    for j in range(k):
-        column = block[:, j]
-        given = ~np.isnan(column)
-        _in_range(
-            column[given], lines[given], np.full(int(given.sum()), j), maps, name, maps[j].source
-        )
     flat = block.reshape(-1)
     present = ~np.isnan(flat)
     t = np.repeat(t_us, k)[present]
     ch = np.tile(np.arange(k, dtype=np.int32), n)[present]
-    return t, ch, flat[present]
+    row_lines = np.repeat(lines, k)[present]
+    return t, ch, _in_plan_units(flat[present], ch, row_lines, maps, name, None)

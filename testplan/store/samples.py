@@ -18,7 +18,7 @@ import hashlib
 import uuid
 from collections.abc import Callable
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, cast
+from typing import TYPE_CHECKING, Any, cast
 
 import sqlalchemy as sa
 from sqlmodel import Session
@@ -138,33 +138,32 @@ def _decode(row: sa.Row[tuple[object, ...]]) -> tuple[np.ndarray, np.ndarray, np
     import numpy as np
 
     return (
-        np.frombuffer(bytes(row.t_us), dtype="<i8").astype(np.int64),
-        np.frombuffer(bytes(row.channel), dtype="<i4").astype(np.int32),
-        np.frombuffer(bytes(row.value), dtype="<f8").astype(np.float64),
+        np.frombuffer(bytes(row.t_us), dtype="<i8"),
+        np.frombuffer(bytes(row.channel), dtype="<i4"),
+        np.frombuffer(bytes(row.value), dtype="<f8"),
     )
+
+
+def _joined(parts: list[tuple[np.ndarray, np.ndarray, np.ndarray]]) -> Samples:
+    """One import's block arrays end to end, as native arrays."""
+    import numpy as np
+
+    def column(k: int, dtype: type) -> Any:
+        if not parts:
+            return np.zeros(0, dtype=dtype)
+        return np.concatenate([p[k] for p in parts]).astype(dtype)
+
+    return Samples(column(0, np.int64), column(1, np.int32), column(2, np.float64))
 
 
 def read_samples(session: Session, raw_file_id: uuid.UUID) -> Samples:
     """An import's samples, in sequence order, as three arrays."""
-    import numpy as np
-
-    parts = [_decode(row) for row in _blocks(session, raw_file_id)]
-    if not parts:
-        return Samples(
-            np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int32), np.zeros(0, dtype=np.float64)
-        )
-    return Samples(
-        np.concatenate([p[0] for p in parts]),
-        np.concatenate([p[1] for p in parts]),
-        np.concatenate([p[2] for p in parts]),
-    )
+    return _joined([_decode(row) for row in _blocks(session, raw_file_id)])
 
 
 def check_blocks(session: Session, raw_file_id: uuid.UUID) -> tuple[Samples, list[BlockProblem]]:
     """Read an import's samples and check each block: its arrays against its own SHA-256
     and count, and that blocks follow on from each other with no gap or overlap."""
-    import numpy as np
-
     problems: list[BlockProblem] = []
     parts = []
     expected_seq = expected_block = 0
@@ -188,14 +187,4 @@ def check_blocks(session: Session, raw_file_id: uuid.UUID) -> tuple[Samples, lis
             problems.append(BlockProblem(block, first, "its values changed since import"))
         parts.append((t, c, v))
         expected_seq, expected_block = first + n, block + 1
-    if not parts:
-        empty = Samples(
-            np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int32), np.zeros(0, dtype=np.float64)
-        )
-        return empty, problems
-    samples = Samples(
-        np.concatenate([p[0] for p in parts]),
-        np.concatenate([p[1] for p in parts]),
-        np.concatenate([p[2] for p in parts]),
-    )
-    return samples, problems
+    return _joined(parts), problems

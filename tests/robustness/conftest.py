@@ -3,7 +3,6 @@ cloned for each test (an SQLite file copy, or a PostgreSQL database made from a 
 
 from __future__ import annotations
 
-import os
 import shutil
 import uuid
 from collections.abc import Iterator
@@ -59,17 +58,13 @@ def signed_template(
         with admin.connect() as conn:
             conn.exec_driver_sql(f'CREATE DATABASE "{name}"')
         url = make_url(PG_URL).set(database=name).render_as_string(hide_password=False)
-    old = os.environ.get("TESTPLAN_KEY_PASSPHRASE")
-    os.environ["TESTPLAN_KEY_PASSPHRASE"] = PASS
     try:
-        bench = record_and_judge(stock(Bench(url, folder)), deviation=True)
-        pdf = approve_and_issue(bench)
+        with pytest.MonkeyPatch.context() as env:
+            env.setenv("TESTPLAN_KEY_PASSPHRASE", PASS)
+            bench = record_and_judge(stock(Bench(url, folder)), deviation=True)
+            pdf = approve_and_issue(bench)
         yield url, pdf
     finally:
-        if old is None:
-            os.environ.pop("TESTPLAN_KEY_PASSPHRASE", None)
-        else:
-            os.environ["TESTPLAN_KEY_PASSPHRASE"] = old
         if admin is not None:
             with admin.connect() as conn:
                 conn.exec_driver_sql(

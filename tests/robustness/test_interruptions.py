@@ -120,7 +120,7 @@ def test_a_killed_import_leaves_all_or_nothing(bench: Bench) -> None:
     codes = kill_at_fractions(attempt, total, lambda: files() == 1)
     assert -signal.SIGKILL in codes  # at least one attempt really was cut short
     if files() == 0:
-        assert timed(bench, *args) > 0
+        timed(bench, *args)
     assert files() == 1 and bench.sample_count() - before == ROWS
     store_checks_out(bench)
 
