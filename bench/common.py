@@ -74,13 +74,13 @@ SAMPLE = ROOT / "sample_campaign" / "flood-gauge-node.toml"
 RUN = "water-8@ip-verification-1"
 MAPS = [
     "--map",
-    "depth[mm]=lowest_point_depth@PT-03",
+    "depth[mm]=lowest_point_depth@LT-03",
     "--map",
-    "water[degC]=water_temperature@PT-03",
+    "water[degC]=water_temperature@LT-03",
     "--map",
-    "s1[degC]=specimen_temperature@PT-03#QC-2027-014-S01",
+    "s1[degC]=specimen_temperature@LT-03#QC-2027-014-S01",
     "--map",
-    "s2[degC]=specimen_temperature@PT-03#QC-2027-014-S02",
+    "s2[degC]=specimen_temperature@LT-03#QC-2027-014-S02",
 ]
 
 
@@ -128,12 +128,12 @@ def bench_store(folder: Path, url: str | None = None) -> str:
 
     tp("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator", "-q")
     tp("init", str(SAMPLE), "-q")
-    tp("equipment", "add", "PT-03", "--description", "transmitter", "-q")
+    tp("equipment", "add", "LT-03", "--description", "transmitter", "-q")
     for channel in ("lowest_point_depth", "water_temperature", "specimen_temperature"):
         tp(
             "equipment",
             "calibrate",
-            "PT-03",
+            "LT-03",
             "--channel",
             channel,
             "--certificate",
@@ -155,7 +155,7 @@ def bench_store(folder: Path, url: str | None = None) -> str:
         "--operator",
         "AK",
         "--equipment",
-        "PT-03",
+        "LT-03",
         "--ambient-temperature",
         "21 degC",
         "--ambient-humidity",

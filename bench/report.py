@@ -38,12 +38,12 @@ def call(*args):
 
 call("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator")
 call("init", f"{work}/campaign.toml")
-call("equipment", "add", "PT-03", "--description", "bench instruments", "--by", "AK")
+call("equipment", "add", "LT-03", "--description", "bench instruments", "--by", "AK")
 CHANNELS = {"probe_force": ("N", 0.05), "depression": ("kPa", 0.05),
             "extraction_rate": ("L/h", 1), "flow": ("L/min", 0.5),
             "lowest_point_depth": ("mm", 4)}
 for channel, (unit, u) in CHANNELS.items():
-    call("equipment", "calibrate", "PT-03", "--channel", channel, "--certificate", "C-1",
+    call("equipment", "calibrate", "LT-03", "--channel", channel, "--certificate", "C-1",
          "--provider", "P", "--calibrated", "2026-06-01", "--due", "2027-12-01",
          "--uncertainty", f"{u} {unit}", "--by", "AK")
 
@@ -67,11 +67,11 @@ plan = json.load(open(f"{work}/plan.json"))
 for run in plan["schedule"]["runs"]:
     quantity, unit, seconds, _ = LOGS[run["procedure"]]
     end = (t0 + dt.timedelta(seconds=seconds)).strftime("%Y-%m-%dT%H:%M:%SZ")
-    call("record", "start", run["id"], "--operator", "AK", "--equipment", "PT-03",
+    call("record", "start", run["id"], "--operator", "AK", "--equipment", "LT-03",
          "--ambient-temperature", "21 degC", "--ambient-humidity", "45 %",
          "--ambient-pressure", "1012 hPa", "--state-ok", "--at", "2027-01-12T08:00Z")
     call("record", "import", run["id"], f"{work}/{run['procedure']}.csv",
-         "--map", f"reading[{unit}]={quantity}@PT-03", "--by", "AK")
+         "--map", f"reading[{unit}]={quantity}@LT-03", "--by", "AK")
     call("record", "finish", run["id"], "--by", "AK", "--at", end)
 call("judge")
 """

@@ -1,5 +1,5 @@
-"""Invented bench data for the demo: logger files and observation sheets for the RiverWatch
-RW-40 flood-gauge node. Nothing here was measured; it only exercises the tool.
+"""Invented bench data for the demo: logger files and observation sheets for the Quorrel Q-Brook
+Q-Brook 7 flood-gauge node. Nothing here was measured; it only exercises the tool.
 
     python sample_campaign/bench_data.py OUT_DIR
 

@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# The demo's bench work for the invented RiverWatch RW-40 flood-gauge node: people,
+# The demo's bench work for the invented Quorrel Q-Brook 7 flood-gauge node: people,
 # equipment with calibrations, and six runs recorded from invented logger files and
 # observation sheets (bench_data.py). One run, water-8@aged-1, is made to fail.
 #   sample_campaign/record_demo.sh OUT_DIR     (testplan and python on PATH)
@@ -26,10 +26,10 @@ testplan record receive ${S}01 ${S}02 ${S}03 ${S}04 ${S}05 ${S}06 --on 2027-01-0
     --condition "new, in sealed cartons, no visible damage; cable tails 2 m" --by AK $q
 
 # Equipment and calibrations (values in each channel's plan unit unless a unit is given).
-cal() { testplan equipment calibrate "$@" --provider "Vale Calibration Ltd" --by AK $q; }
-testplan equipment add PT-03 --description "tank level and temperature transmitter" --serial 88213 --by AK $q
-cal PT-03 --channel lowest_point_depth --certificate VC-2026-118 --calibrated 2026-06-01 --due 2027-06-01 --uncertainty "4 mm" --range "0 mm" "3000 mm"
-cal PT-03 --channel water_temperature --certificate VC-2026-118 --calibrated 2026-06-01 --due 2027-06-01 --uncertainty "0.2 K" --range "0 degC" "40 degC"
+cal() { testplan equipment calibrate "$@" --provider "Gellimoor Calibration Ltd" --by AK $q; }
+testplan equipment add LT-03 --description "tank level and temperature transmitter" --serial 88213 --by AK $q
+cal LT-03 --channel lowest_point_depth --certificate VC-2026-118 --calibrated 2026-06-01 --due 2027-06-01 --uncertainty "4 mm" --range "0 mm" "3000 mm"
+cal LT-03 --channel water_temperature --certificate VC-2026-118 --calibrated 2026-06-01 --due 2027-06-01 --uncertainty "0.2 K" --range "0 degC" "40 degC"
 testplan equipment add TT-07 --description "two-channel surface thermometer" --serial T7-5521 --by AK $q
 cal TT-07 --channel specimen_temperature --certificate VC-2026-201 --calibrated 2026-09-01 --due 2027-09-01 --uncertainty "0.5 K" --range "-10 degC" "60 degC"
 testplan equipment add FM-02 --description "jet flow meter with nozzle pressure gauge" --serial FM-20-114 --by AK $q
@@ -64,10 +64,10 @@ testplan record check $run --by MO --at 2027-01-12T11:30Z $q
 
 # 72 h immersion at 2 m of S01 and S02.
 run=water-8@ip-verification-1
-testplan record start $run --operator AK --equipment PT-03 --equipment TT-07 "${amb[@]}" --state-ok \
+testplan record start $run --operator AK --equipment LT-03 --equipment TT-07 "${amb[@]}" --state-ok \
     --precondition "24 h at 21 degC after re-sealing" --at 2027-01-12T16:10Z $q
 testplan record import $run "$bench/tank-ip1.csv" --tz Europe/London --time-column timestamp \
-    --map "depth_cm[cm]=lowest_point_depth@PT-03" --map "water_C[degC]=water_temperature@PT-03" \
+    --map "depth_cm[cm]=lowest_point_depth@LT-03" --map "water_C[degC]=water_temperature@LT-03" \
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}01" --map "s2_C[degC]=specimen_temperature@TT-07#${S}02" --by AK $q
 testplan record observe $run --sheet "$bench/after-ip1.toml" --by AK $q
 testplan record finish $run --by AK --at 2027-01-15T16:20Z $q
@@ -101,9 +101,9 @@ testplan record check $run --by JT --at 2027-01-21T15:00Z $q
 
 # 72 h immersion of S03 and S04 after ageing: the tank is topped up at hour 30.
 run=water-8@aged-1
-testplan record start $run --operator AK --equipment PT-03 --equipment TT-07 "${amb[@]}" --state-ok --at 2027-01-21T14:10Z $q
+testplan record start $run --operator AK --equipment LT-03 --equipment TT-07 "${amb[@]}" --state-ok --at 2027-01-21T14:10Z $q
 testplan record import $run "$bench/tank-aged1.csv" --tz Europe/London --time-column timestamp \
-    --map "depth_cm[cm]=lowest_point_depth@PT-03" --map "water_C[degC]=water_temperature@PT-03" \
+    --map "depth_cm[cm]=lowest_point_depth@LT-03" --map "water_C[degC]=water_temperature@LT-03" \
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}03" --map "s2_C[degC]=specimen_temperature@TT-07#${S}04" --by AK $q
 testplan record observe $run --sheet "$bench/after-aged1.toml" --by AK $q
 testplan record finish $run --by AK --at 2027-01-24T14:20Z $q
@@ -111,9 +111,9 @@ testplan record check $run --by JT --at 2027-01-25T09:00Z $q
 
 # 72 h immersion of S05 after ageing.
 run=water-8@aged-2
-testplan record start $run --operator JT --equipment PT-03 --equipment TT-07 "${amb[@]}" --state-ok --at 2027-01-25T08:10Z $q
+testplan record start $run --operator JT --equipment LT-03 --equipment TT-07 "${amb[@]}" --state-ok --at 2027-01-25T08:10Z $q
 testplan record import $run "$bench/tank-aged2.csv" --tz Europe/London --time-column timestamp --skip-unmapped \
-    --map "depth_cm[cm]=lowest_point_depth@PT-03" --map "water_C[degC]=water_temperature@PT-03" \
+    --map "depth_cm[cm]=lowest_point_depth@LT-03" --map "water_C[degC]=water_temperature@LT-03" \
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}05" --by JT $q
 testplan record observe $run --sheet "$bench/after-aged2.toml" --by JT $q
 testplan record finish $run --by JT --at 2027-01-28T08:30Z $q
@@ -126,7 +126,7 @@ testplan record list
 testplan judge || [ $? -eq 3 ]
 
 # Sign-off by three different people with their own keys (an invented demo passphrase).
-export TESTPLAN_KEY_PASSPHRASE="riverwatch demo only"
+export TESTPLAN_KEY_PASSPHRASE="q-brook demo key, not for use"
 rm -rf "$out/keys" && mkdir -p "$out/keys"
 for who in RP LV MO; do
     testplan keys new $who --out "$out/keys/$who.pem"

@@ -28,7 +28,7 @@ app = command_group("Register equipment and record its calibrations.")
 @app.command("add")
 @reports_errors
 def add_command(
-    tag: Annotated[str, typer.Argument(help="The lab's unique equipment id, e.g. PT-03.")],
+    tag: Annotated[str, typer.Argument(help="The lab's unique equipment id, e.g. LT-03.")],
     description: Annotated[str, typer.Option("--description", help="What it is.")],
     maker: Annotated[str | None, typer.Option("--maker")] = None,
     model: Annotated[str | None, typer.Option("--model")] = None,
@@ -39,7 +39,7 @@ def add_command(
 ) -> None:
     """Add an instrument to the equipment register.
 
-    Example: testplan equipment add PT-03 --description "level transmitter" --serial 88213
+    Example: testplan equipment add LT-03 --description "level transmitter" --serial 88213
     """
     from testplan.store import records
     from testplan.store.tables import Equipment
@@ -114,7 +114,7 @@ def calibrate_command(
     Values are in the channel's plan unit (see `testplan record import --help`);
     a quantity with a unit such as "0.4 degC" is converted.
 
-    Example: testplan equipment calibrate TT-07 --channel water_temperature --certificate C-4471 --provider "Vale Calibration" --calibrated 2026-10-02 --due 2027-10-02 --uncertainty 0.3
+    Example: testplan equipment calibrate TT-07 --channel water_temperature --certificate C-4471 --provider "Gellimoor Calibration" --calibrated 2026-10-02 --due 2027-10-02 --uncertainty 0.3
     """
     from testplan.domain.channels import CHANNELS
     from testplan.store import records

@@ -176,7 +176,7 @@ def start_command(
 
     Refused when any equipment's calibration is not valid through the run's planned end.
 
-    Example: testplan record start water-8@aged-1 --operator AK --equipment PT-03 --equipment TT-07 --ambient-temperature "21 degC" --ambient-humidity "45 %" --ambient-pressure "1012 hPa" --state-ok
+    Example: testplan record start water-8@aged-1 --operator AK --equipment LT-03 --equipment TT-07 --ambient-temperature "21 degC" --ambient-humidity "45 %" --ambient-pressure "1012 hPa" --state-ok
     """
     from testplan.store import records
 
@@ -287,7 +287,7 @@ def import_command(
 
     One all-or-nothing import: a bad line is named (file, line, column) and nothing is kept.
 
-    Example: testplan record import water-8@aged-1 tank.csv --map "level[cm]=lowest_point_depth@PT-03" --tz Europe/London --by AK
+    Example: testplan record import water-8@aged-1 tank.csv --map "level[cm]=lowest_point_depth@LT-03" --tz Europe/London --by AK
     """
     from testplan.importers.logger_csv import ReadOptions, parse_map, read_logger_file
 

@@ -74,7 +74,7 @@ def parse_map(text: str) -> ChannelMapping:
             f"cannot read the channel map {text!r}",
             key="--map",
             fix="write SOURCE[UNIT]=QUANTITY@EQUIPMENT#SPECIMEN, e.g. "
-            "'level[cm]=lowest_point_depth@PT-03'",
+            "'level[cm]=lowest_point_depth@LT-03'",
         )
     quantity = m["quantity"]
     if quantity not in CHANNELS:

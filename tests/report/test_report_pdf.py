@@ -49,7 +49,7 @@ def report(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[str], P
         "AK",
         "--quiet",
     )
-    for tag, channel, u in (("PT-03", "lowest_point_depth", "4 mm"), ("TQ-11", "cycle_count", "0")):
+    for tag, channel, u in (("LT-03", "lowest_point_depth", "4 mm"), ("TQ-11", "cycle_count", "0")):
         b("equipment", "add", tag, "--description", f"{channel} sensor", "--quiet")
         b(
             "equipment",
@@ -60,7 +60,7 @@ def report(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[str], P
             "--certificate",
             f"VC-{tag}",
             "--provider",
-            "Vale Calibration Ltd",
+            "Gellimoor Calibration Ltd",
             "--calibrated",
             "2026-06-01",
             "--due",
@@ -96,14 +96,14 @@ def report(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[str], P
         RUN,
         str(tank),
         "--map",
-        "depth[mm]=lowest_point_depth@PT-03",
+        "depth[mm]=lowest_point_depth@LT-03",
         "--by",
         "AK",
         "--quiet",
     )
     b("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
     b("record", "check", RUN, "--by", "MO", "--at", "2027-01-16T09:00Z", "--quiet")
-    start = [a if a != "PT-03" else "TQ-11" for a in START]
+    start = [a if a != "LT-03" else "TQ-11" for a in START]
     b("record", "start", KNOB, *start, "--at", "2027-01-12T11:00Z", "--quiet")
     k0 = dt.datetime(2027, 1, 12, 11, tzinfo=dt.UTC)
     rig = b.write(
@@ -145,10 +145,10 @@ def text(report: tuple[Path, list[str], PdfReader]) -> str:
     [
         # source: ISO/IEC 17025:2017 cl. 7.8.2.1 a-p (from memory)
         "Test report",  # a) title
-        "Northbank Environmental Test Laboratory, 14 Ferry Road, Northbank Industrial Estate",  # b)
-        "Place of testing Northbank laboratory, bay 2",  # c)
+        "Ferrowick Environmental Test Laboratory, 14 Ferry Road, Ferrowick Industrial Estate",  # b)
+        "Place of testing Ferrowick laboratory, bay 2",  # c)
         "Report number and revision TR-QC-2027-014, revision 1",  # d)
-        "Halden Hydrometrics Ltd",  # e) client
+        "Quorrel Gaugeworks Ltd",  # e) client
         "contact: Priya Nair",  # e) contact
         "Method: IEC 60529:Ed. 2.2",  # f) method with edition
         "cl. 14.2.8",  # f) clause
@@ -161,10 +161,10 @@ def text(report: tuple[Path, list[str], PdfReader]) -> str:
         "Not yet prepared, reviewed and approved",  # o) authorisation (draft)
         "Results from external providers: none",  # p)
         "21 degC, 45 %RH, 1012 hPa at the start",  # environmental conditions
-        "VC-PT-03, Vale Calibration Ltd",  # equipment and certificate
+        "VC-LT-03, Gellimoor Calibration Ltd",  # equipment and certificate
         "valid for the run",  # calibration status
         "4 mm (k = 2)",  # uncertainty
-        "guarded acceptance, w = 1 x U (ILAC-G8); agreed: client letter HH-QA-0112",  # rule
+        "guarded acceptance, w = 1 x U (ILAC-G8); agreed: client letter QG-QA-0112",  # rule
         "supplied by the client",  # customer-supplied data identified (cl. 7.8.2.2)
         "The laboratory is not responsible for it",  # its disclaimer
         "Interpretation. Interpretation, not a measured result",  # cl. 7.8.7

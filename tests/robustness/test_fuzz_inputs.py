@@ -240,7 +240,7 @@ def mutate_campaign(data: st.DataObject) -> bytes:
     if how == "utf16":
         return SAMPLE_TEXT.encode("utf-16")
     if how == "latin1":
-        return SAMPLE_TEXT.replace("Halden", "H\u00e4lden").encode("latin-1")
+        return SAMPLE_TEXT.replace("Quorrel", "Qu\u00f6rrel").encode("latin-1")
     return data.draw(st.binary(max_size=300))
 
 
@@ -296,9 +296,9 @@ def test_a_bad_logger_file_leaves_the_store_as_it_was(
         RUN,
         str(path),
         "--map",
-        "level[cm]=lowest_point_depth@PT-03",
+        "level[cm]=lowest_point_depth@LT-03",
         "--map",
-        "water[degF]=water_temperature@PT-03",
+        "water[degF]=water_temperature@LT-03",
         "--tz",
         "Europe/London",
         "--by",

@@ -94,7 +94,7 @@ def kill_at_fractions(
 def test_a_killed_import_leaves_all_or_nothing(bench: Bench) -> None:
     bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
     log = long_log(bench.folder)
-    args = ("record", "import", RUN, str(log), "--map", "depth[mm]=lowest_point_depth@PT-03")
+    args = ("record", "import", RUN, str(log), "--map", "depth[mm]=lowest_point_depth@LT-03")
     args += ("--by", "AK", "--quiet")
     # How long a whole import takes, on a second store made the same way.
     timing = stock(Bench(f"sqlite:///{bench.folder / 'timing.db'}", bench.folder))

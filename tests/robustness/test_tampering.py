@@ -61,7 +61,7 @@ def extra_role(b: Bench) -> None:
 RAW = f"raw file tank.csv of {RUN}"
 OBS = f"observation ingress on QC-2027-014-S01 in {RUN}"
 DEV = f"deviation on {RUN}: tank topped up for 3 min"
-CAL = "calibration VC-2026-118 of PT-03 (lowest_point_depth)"
+CAL = "calibration VC-2026-118 of LT-03 (lowest_point_depth)"
 CHUNK = "samples of tank.csv, chunk 1 (rows 1 to 4400)"
 
 CASES = [
@@ -131,7 +131,7 @@ CASES = [
         "calibration",
         "insert",
         extra_calibration,
-        "calibration VC-2099-001 of PT-03 (lowest_point_depth): added",
+        "calibration VC-2099-001 of LT-03 (lowest_point_depth): added",
         True,  # re-pointing the channel at it is refused
     ),
     Tamper(

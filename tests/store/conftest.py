@@ -132,7 +132,7 @@ START = (
     "--operator",
     "AK",
     "--equipment",
-    "PT-03",
+    "LT-03",
     "--ambient-temperature",
     "21 degC",
     "--ambient-humidity",
@@ -150,7 +150,7 @@ def bench(db_url: str, tmp_path: Path) -> Bench:
 
 
 def stock(b: Bench) -> Bench:
-    """Fill an empty store with the sample campaign, three people and PT-03."""
+    """Fill an empty store with the sample campaign, three people and LT-03."""
     b("init", str(SAMPLE), "--quiet")
     b("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator", "--quiet")
     b(
@@ -184,7 +184,7 @@ def stock(b: Bench) -> Bench:
     b(
         "equipment",
         "add",
-        "PT-03",
+        "LT-03",
         "--description",
         "level and temperature transmitter",
         "--serial",
@@ -200,13 +200,13 @@ def stock(b: Bench) -> Bench:
         b(
             "equipment",
             "calibrate",
-            "PT-03",
+            "LT-03",
             "--channel",
             channel,
             "--certificate",
             "VC-2026-118",
             "--provider",
-            "Vale Calibration Ltd",
+            "Gellimoor Calibration Ltd",
             "--calibrated",
             "2026-06-01",
             "--due",
@@ -269,7 +269,7 @@ def record_and_judge(bench: Bench, *, deviation: bool = False) -> Bench:
         RUN,
         str(tank),
         "--map",
-        "depth[mm]=lowest_point_depth@PT-03",
+        "depth[mm]=lowest_point_depth@LT-03",
         "--by",
         "AK",
         "--quiet",

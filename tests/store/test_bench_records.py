@@ -45,13 +45,13 @@ def test_equipment_due_before_the_planned_end_is_out_of_service(bench: Bench) ->
     bench(
         "equipment",
         "calibrate",
-        "PT-03",
+        "LT-03",
         "--channel",
         "water_temperature",
         "--certificate",
         "VC-2027-009",
         "--provider",
-        "Vale Calibration Ltd",
+        "Gellimoor Calibration Ltd",
         "--calibrated",
         "2027-01-05",
         "--due",
@@ -63,7 +63,7 @@ def test_equipment_due_before_the_planned_end_is_out_of_service(bench: Bench) ->
     # The run lasts 72 h: started on the 12th it ends on the 15th, after the due date.
     line = bench.fail("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z")
     assert line == (
-        "error: --equipment: PT-03 is out of service for this run: its water_temperature "
+        "error: --equipment: LT-03 is out of service for this run: its water_temperature "
         "calibration (VC-2027-009) was due 2027-01-14, and the run is planned to end "
         "2027-01-15 (recalibrate it or use other equipment)"
     )
@@ -73,14 +73,14 @@ def test_equipment_due_before_the_planned_end_is_out_of_service(bench: Bench) ->
 
 def test_equipment_without_a_calibration_is_refused(bench: Bench) -> None:
     bench("equipment", "add", "TT-07", "--description", "thermometer", "--quiet")
-    args = [a if a != "PT-03" else "TT-07" for a in START]
+    args = [a if a != "LT-03" else "TT-07" for a in START]
     line = bench.fail("record", "start", RUN, *args)
     assert "TT-07 has no calibration on record" in line and "out of service" in line
 
 
 def test_unknown_equipment_person_and_run_are_named(bench: Bench) -> None:
-    args = [a if a != "PT-03" else "PT-3" for a in START]
-    assert "no equipment 'PT-3' in the register (did you mean 'PT-03'?)" in bench.fail(
+    args = [a if a != "LT-03" else "PT-3" for a in START]
+    assert "no equipment 'PT-3' in the register (did you mean 'LT-03'?)" in bench.fail(
         "record", "start", RUN, *args
     )
     args = [a if a != "AK" else "AX" for a in START]
@@ -219,7 +219,7 @@ def test_calibration_refusals(bench: Bench) -> None:
     base = [
         "equipment",
         "calibrate",
-        "PT-03",
+        "LT-03",
         "--certificate",
         "X",
         "--provider",
@@ -259,13 +259,13 @@ def test_calibration_values_with_units_are_converted_to_the_plan_unit(bench: Ben
     bench(
         "equipment",
         "calibrate",
-        "PT-03",
+        "LT-03",
         "--channel",
         "lowest_point_depth",
         "--certificate",
         "VC-2027-010",
         "--provider",
-        "Vale Calibration Ltd",
+        "Gellimoor Calibration Ltd",
         "--calibrated",
         "2026-12-01",
         "--due",

@@ -9,7 +9,7 @@ from .conftest import SAMPLE, START, Bench
 
 def test_init_stores_procedures_criteria_specimens_and_runs(bench: Bench) -> None:
     assert bench.sql("SELECT reference, title FROM campaign") == [
-        ("QC-2027-014", "Qualification of the RiverWatch RW-40 flood-gauge node")
+        ("QC-2027-014", "Qualification of the Quorrel Q-Brook 7 flood-gauge node")
     ]
     assert bench.sql("SELECT count(*) FROM specimen")[0][0] == 6
     assert bench.sql("SELECT count(*) FROM run")[0][0] == 15

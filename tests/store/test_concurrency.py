@@ -32,7 +32,7 @@ def test_four_processes_import_50000_samples_each(bench: Bench) -> None:
     procs = [
         subprocess.Popen(
             [sys.executable, "-m", "testplan", "record", "import", RUN, str(f), "--map",
-             "depth[mm]=lowest_point_depth@PT-03", "--by", "AK", "--quiet"],
+             "depth[mm]=lowest_point_depth@LT-03", "--by", "AK", "--quiet"],
             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, env=env,
         )
         for f in files

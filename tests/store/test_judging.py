@@ -39,9 +39,9 @@ def record(bench: Bench, dip: bool) -> None:
         RUN,
         tank_csv(bench, dip),
         "--map",
-        "depth[mm]=lowest_point_depth@PT-03",
+        "depth[mm]=lowest_point_depth@LT-03",
         "--map",
-        "water[degC]=water_temperature@PT-03",
+        "water[degC]=water_temperature@LT-03",
         "--by",
         "AK",
         "--quiet",
@@ -77,7 +77,7 @@ def test_a_failing_run_exits_3_and_says_why(bench: Bench) -> None:
     ) in result.stdout
     assert (
         "decision rule: guarded acceptance, w = 1 x U (ILAC-G8); agreed: client letter "
-        "HH-QA-0112 of 2027-01-04" in result.stdout
+        "QG-QA-0112 of 2027-01-04" in result.stdout
     )
     assert result.stderr.strip().endswith(f"error: 1 run(s) did not pass: {RUN}")
 
@@ -96,7 +96,7 @@ def test_verdicts_keep_value_limit_margin_uncertainty_window_and_input_hash(benc
         "2027-01-15 16:13"
     )
     assert len(row[8]) == 64
-    assert row[9:] == ("guarded", 1.0, "0.1.0", "client letter HH-QA-0112 of 2027-01-04")
+    assert row[9:] == ("guarded", 1.0, "0.1.0", "client letter QG-QA-0112 of 2027-01-04")
     # Judged per specimen where the evidence is per specimen, run-wide where it is not.
     per = bench.sql("SELECT count(*) FROM verdict WHERE criterion_key = 'water-8.ingress'")
     assert per == [(2,)]
@@ -176,7 +176,7 @@ def test_endurance_reliability_is_an_interpretation(bench: Bench) -> None:
         "1",
         "--quiet",
     )
-    start = [a if a != "PT-03" else "TQ-11" for a in START]
+    start = [a if a != "LT-03" else "TQ-11" for a in START]
     bench("record", "start", run, *start, "--at", "2027-01-12T11:00Z", "--quiet")
     t0 = dt.datetime(2027, 1, 12, 11, tzinfo=dt.UTC)
     rows = ["time,cycles"] + [

@@ -11,8 +11,8 @@ from .conftest import START, Bench
 
 DATA = Path(__file__).resolve().parents[1] / "data" / "loggers"
 RUN = "water-8@ip-verification-1"
-LEVEL = "level[cm]=lowest_point_depth@PT-03"
-WATER = "water[degF]=water_temperature@PT-03"
+LEVEL = "level[cm]=lowest_point_depth@LT-03"
+WATER = "water[degF]=water_temperature@LT-03"
 
 
 @pytest.fixture
@@ -97,9 +97,9 @@ def test_wide_file_with_zone_bom_decimal_comma_and_gaps(running: Bench) -> None:
         "Europe/Berlin",
         "--skip-unmapped",
         "--map",
-        "Pegel[cm]=lowest_point_depth@PT-03",
+        "Pegel[cm]=lowest_point_depth@LT-03",
         "--map",
-        "Wasser[degC]=water_temperature@PT-03",
+        "Wasser[degC]=water_temperature@LT-03",
         "--by",
         "AK",
         "--quiet",
@@ -122,9 +122,9 @@ def test_a_bad_line_mid_file_is_named_and_nothing_is_kept(running: Bench) -> Non
         RUN,
         str(DATA / "tank-bad-line.csv"),
         "--map",
-        "level[mm]=lowest_point_depth@PT-03",
+        "level[mm]=lowest_point_depth@LT-03",
         "--map",
-        "water[degC]=water_temperature@PT-03",
+        "water[degC]=water_temperature@LT-03",
         "--by",
         "AK",
     )
@@ -276,11 +276,11 @@ def test_wrong_encoding_is_named_with_its_line(running: Bench) -> None:
 @pytest.mark.parametrize(
     ("mapping", "expected"),
     [
-        ("level[cm]=depth@PT-03", "error: --map: unknown quantity 'depth' in"),
-        ("level[s]=lowest_point_depth@PT-03", "'s' is not a length unit"),
-        ("level=lowest_point_depth@PT-03", "no unit given; expected a length unit"),
+        ("level[cm]=depth@LT-03", "error: --map: unknown quantity 'depth' in"),
+        ("level[s]=lowest_point_depth@LT-03", "'s' is not a length unit"),
+        ("level=lowest_point_depth@LT-03", "no unit given; expected a length unit"),
         ("level[cm]=lowest_point_depth@PT-09", "no equipment 'PT-09' in the register"),
-        ("level[cm]=torque@PT-03", "'cm' is not a torque unit"),
+        ("level[cm]=torque@LT-03", "'cm' is not a torque unit"),
         ("level cm lowest", "error: --map: cannot read the channel map 'level cm lowest'"),
     ],
 )
@@ -329,7 +329,7 @@ def test_channels_can_name_the_specimen_they_measure(bench: Bench) -> None:
         "--certificate",
         "VC-2026-201",
         "--provider",
-        "Vale Calibration Ltd",
+        "Gellimoor Calibration Ltd",
         "--calibrated",
         "2026-09-01",
         "--due",

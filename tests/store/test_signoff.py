@@ -92,7 +92,7 @@ def test_approval_locks_the_campaign(judged: Bench) -> None:
         ("UPDATE verdict SET outcome = 'pass' WHERE outcome <> 'pass'", "verdict water-8."),
         (
             "UPDATE calibration SET due_on = '2028-06-01'",
-            "calibration VC-2026-118 of PT-03 (lowest_point_depth): changed",
+            "calibration VC-2026-118 of LT-03 (lowest_point_depth): changed",
         ),
     ],
 )
