@@ -9,9 +9,10 @@ from pathlib import Path
 from testplan.errors import TestplanError
 
 
-def write_atomically(path: str | Path, data: bytes) -> None:
+def write_atomically(path: str | Path, data: bytes, *, private: bool = False) -> None:
     """Write ``data`` to a temporary file beside ``path``, then rename it into place.
 
+    With ``private`` the file stays 0600 from its first byte (private keys).
     Raises TestplanError naming the file when the folder is missing or not writable.
     """
     path = Path(path)
@@ -23,7 +24,8 @@ def write_atomically(path: str | Path, data: bytes) -> None:
     try:
         umask = os.umask(0)
         os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; give the usual file mode
+        if not private:
+            os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes 0600; give the usual file mode
         with os.fdopen(fd, "wb") as handle:
             handle.write(data)
             handle.flush()

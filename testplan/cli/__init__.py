@@ -9,7 +9,7 @@ from __future__ import annotations
 import typer
 
 from testplan import __version__
-from testplan.cli import equipment, people, record, signoff_cmd, store_cmd
+from testplan.cli import equipment, keys_cmd, people, record, signoff_cmd, store_cmd
 from testplan.cli.common import command_group
 from testplan.cli.init_cmd import init_command
 from testplan.cli.judge_cmd import judge_command
@@ -45,7 +45,7 @@ app.command("report")(report_command)
 app.command("sign")(signoff_cmd.sign_command)
 app.command("amend")(signoff_cmd.amend_command)
 app.command("verify")(signoff_cmd.verify_command)
-app.add_typer(signoff_cmd.keys_app, name="keys")
+app.add_typer(keys_cmd.app, name="keys")
 app.add_typer(record.app, name="record")
 app.add_typer(equipment.app, name="equipment")
 app.add_typer(people.app, name="people")

@@ -6,6 +6,7 @@ Kept light: nothing here imports SQLAlchemy, pandas or pint at module level.
 from __future__ import annotations
 
 import datetime as dt
+from pathlib import Path
 from typing import TYPE_CHECKING, Annotated
 
 import typer
@@ -18,6 +19,7 @@ if TYPE_CHECKING:  # pragma: no cover
     from typer.core import TyperOption
 
     from testplan.store.engine import Store
+    from testplan.store.identity import Signer
 
 DbOption = Annotated[
     str | None,
@@ -137,3 +139,50 @@ def parse_date(text: str, key: str) -> dt.date:
         raise RecordError(
             f"cannot read {text!r} as a date", key=key, fix="e.g. 2026-10-01"
         ) from None
+
+
+PASS_ENV = "TESTPLAN_KEY_PASSPHRASE"
+KEY_ENV = "TESTPLAN_KEY"
+
+KeyOption = Annotated[
+    Path | None,
+    typer.Option(
+        "--key",
+        help="Private key file of the person named (default: $TESTPLAN_KEY); its passphrase "
+        "is asked for, or taken from $TESTPLAN_KEY_PASSPHRASE.",
+        show_default=False,
+    ),
+]
+
+
+def passphrase(confirm: bool) -> str:
+    """The key passphrase from $TESTPLAN_KEY_PASSPHRASE, else asked for (not echoed)."""
+    import os
+
+    value = os.environ.get(PASS_ENV)
+    if value:
+        return value
+    text: str = typer.prompt(
+        "Key passphrase", hide_input=True, confirmation_prompt=confirm, err=True
+    )
+    return text
+
+
+def load_signer(initials: str, key: Path | None, *, option: str = "--by") -> Signer:
+    """The person named by ``option`` with their private key (--key, else $TESTPLAN_KEY);
+    one error line when neither is given or the file cannot be opened."""
+    import os
+
+    from testplan.keys import load_private
+    from testplan.store.identity import Signer
+
+    path = (
+        key if key is not None else (Path(os.environ[KEY_ENV]) if os.environ.get(KEY_ENV) else None)
+    )
+    if path is None:
+        raise RecordError(
+            f"{initials} signs this with their own key",
+            key="--key",
+            fix=f"give --key FILE (or set ${KEY_ENV})",
+        )
+    return Signer(initials, load_private(path, passphrase(confirm=False)), option)

@@ -10,8 +10,10 @@ import typer
 from testplan.cli.common import (
     CampaignOption,
     DbOption,
+    KeyOption,
     QuietOption,
     command_group,
+    load_signer,
     open_for_reading,
     open_for_writing,
     parse_at,
@@ -164,6 +166,7 @@ def start_command(
         str | None,
         typer.Option("--approved-by", help="Initials of the approver allowing the deviation."),
     ] = None,
+    key: KeyOption = None,
     external_provider: Annotated[
         str | None,
         typer.Option("--external-provider", help="Laboratory that ran it, if not this one."),
@@ -194,7 +197,11 @@ def start_command(
         at=parse_at(at),
         deviation=deviation,
         deviation_reason=deviation_reason,
-        deviation_approver=approved_by,
+        deviation_approver=(
+            load_signer(approved_by, key, option="--approved-by")
+            if deviation is not None and approved_by is not None
+            else None
+        ),
         external_provider=external_provider,
     )
     store = open_for_writing(db, quiet=quiet)
@@ -219,16 +226,19 @@ def deviation_command(
     reason: Annotated[str, typer.Option("--reason", help="Why.")],
     approved_by: Annotated[str, typer.Option("--approved-by", help="Initials of the approver.")],
     by: ByOption,
+    key: KeyOption = None,
     campaign: CampaignOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
 ) -> None:
-    """Record a deviation from the method, with its reason and an authorised approver.
+    """Record a deviation from the method, with its reason and the approval of an
+    authorised approver, signed with the approver's key (--key).
 
-    Example: testplan record deviation water-8@aged-1 --description "tank at 1.9 m for 3 min while topping up" --reason "leak in the tank valve" --approved-by MO --by AK
+    Example: testplan record deviation water-8@aged-1 --description "tank at 1.9 m for 3 min while topping up" --reason "leak in the tank valve" --approved-by MO --key mo.pem --by AK
     """
     from testplan.store import records
 
+    approver = load_signer(approved_by, key, option="--approved-by")
     store = open_for_writing(db, quiet=quiet)
 
     def unit(session: Session) -> None:
@@ -238,7 +248,7 @@ def deviation_command(
             run=row,
             description=description,
             reason=reason,
-            approver=approved_by,
+            approver=approver,
             recorded_by=by,
         )
 
@@ -535,22 +545,25 @@ def check_command(
     at: Annotated[
         str | None, typer.Option("--at", help="When checked, with zone (default: now).")
     ] = None,
+    key: KeyOption = None,
     campaign: CampaignOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
 ) -> None:
-    """Record the data check of a finished run by a second authorised person.
+    """Record the data check of a finished run by a second authorised person, signed with
+    the checker's own key (--key).
 
-    Example: testplan record check water-8@aged-1 --by MO
+    Example: testplan record check water-8@aged-1 --by MO --key mo.pem
     """
     from testplan.store import records
 
     when = parse_at(at)
+    checker = load_signer(by, key)
     store = open_for_writing(db, quiet=quiet)
 
     def unit(session: Session) -> None:
         row = records.find_run(session, run, campaign=campaign)
-        records.check_run(session, run=row, by=by, note=note, at=when)
+        records.check_run(session, run=row, by=checker, note=note, at=when)
 
     store.write(unit)
     typer.echo(f"{run}: data checked by {by}")

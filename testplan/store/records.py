@@ -7,7 +7,6 @@ The caller owns the transaction (``Store.write``); nothing here commits.
 from __future__ import annotations
 
 import datetime as dt
-import getpass
 import hashlib
 import json
 import uuid
@@ -22,6 +21,20 @@ from sqlmodel import Session, col, select
 from testplan import __version__
 from testplan.errors import RecordError
 from testplan.store import audit
+from testplan.store.identity import (
+    Signer,
+    Trust,
+    act_message,
+    actor_of,
+    clean_text,
+    find_person,
+    require_role,
+    sign_act,
+    signature_problem,
+)
+from testplan.store.identity import actor_for as actor_for  # re-exported for the CLI
+from testplan.store.identity import os_actor as os_actor  # re-exported for the CLI
+from testplan.store.lock import ensure_open
 from testplan.store.tables import (
     Attachment,
     Calibration,
@@ -32,7 +45,7 @@ from testplan.store.tables import (
     LoggerChannel,
     Observation,
     Person,
-    PersonRole,
+    PersonKey,
     PlanRevision,
     ProcedureRecord,
     RawFile,
@@ -48,119 +61,12 @@ if TYPE_CHECKING:  # pragma: no cover
     from testplan.importers.logger_csv import LoggerData
     from testplan.reader import LoadedCampaign
 
-ROLES = ("operator", "checker", "preparer", "reviewer", "approver")
 RUN_STATES = ("planned", "running", "finished", "checked", "withdrawn")
 
 
 def _near(word: str, options: Sequence[str]) -> str | None:
     hit = get_close_matches(word, list(options), n=1)
     return f"did you mean {hit[0]!r}?" if hit else None
-
-
-def os_actor() -> str:
-    """Who is at the keyboard when no registered person is named."""
-    try:
-        return f"os:{getpass.getuser()}"
-    except (KeyError, OSError):
-        return "os:unknown"
-
-
-# --- people -----------------------------------------------------------------------------
-
-
-def find_person(session: Session, initials: str, *, key: str = "--by") -> Person:
-    person = session.exec(select(Person).where(Person.initials == initials)).first()
-    if person is None:
-        known = list(session.exec(select(Person.initials)).all())
-        raise RecordError(
-            f"no person {initials!r} in the people register",
-            key=key,
-            fix=_near(initials, known) or "add them with `testplan people add`",
-        )
-    return person
-
-
-def roles_of(session: Session, person: Person) -> set[str]:
-    rows = session.exec(select(PersonRole.role).where(PersonRole.person_id == person.id))
-    return set(rows.all())
-
-
-def require_role(session: Session, initials: str, role: str, *, key: str = "--by") -> Person:
-    """The person, if registered and authorised for ``role``; else RecordError."""
-    person = find_person(session, initials, key=key)
-    if role not in roles_of(session, person):
-        raise RecordError(
-            f"{person.name} ({person.initials}) is not authorised as {role}",
-            key=key,
-            fix=f"authorise them with `testplan people authorise {initials} --role {role}`",
-        )
-    return person
-
-
-def actor_for(session: Session, initials: str | None) -> str:
-    """The audit actor: a registered person's initials, or the OS user."""
-    if initials is None:
-        return os_actor()
-    return find_person(session, initials).initials
-
-
-def add_person(
-    session: Session, *, initials: str, name: str, roles: Sequence[str], actor: str
-) -> Person:
-    if session.exec(select(Person).where(Person.initials == initials)).first():
-        raise RecordError(f"{initials!r} is already in the people register", key="INITIALS")
-    for role in roles:
-        _check_role(role)
-    person = Person(initials=initials, name=name)
-    session.add(person)
-    session.flush()
-    for role in sorted(set(roles)):
-        session.add(PersonRole(person_id=person.id, role=role))
-    audit.append(
-        session,
-        actor=actor,
-        action="person.add",
-        entity="person",
-        entity_id=person.id,
-        new={"initials": initials, "name": name, "roles": sorted(set(roles))},
-    )
-    return person
-
-
-def _check_role(role: str) -> None:
-    if role not in ROLES:
-        raise RecordError(
-            f"unknown role {role!r}; roles are {', '.join(ROLES)}",
-            key="--role",
-            fix=_near(role, ROLES),
-        )
-
-
-def authorise_person(
-    session: Session, *, initials: str, roles: Sequence[str], actor: str, why: str | None
-) -> Person:
-    person = find_person(session, initials, key="INITIALS")
-    before = sorted(roles_of(session, person))
-    for role in roles:
-        _check_role(role)
-        if role not in before:
-            session.add(PersonRole(person_id=person.id, role=role))
-    audit.append(
-        session,
-        actor=actor,
-        action="person.authorise",
-        entity="person",
-        entity_id=person.id,
-        why=why,
-        old={"roles": before},
-        new={"roles": sorted(set(before) | set(roles))},
-    )
-    return person
-
-
-def list_people(session: Session) -> list[tuple[Person, list[str]]]:
-    people = session.exec(select(Person).order_by(col(Person.initials))).all()
-    return [(p, sorted(roles_of(session, p))) for p in people]
 
 
 # --- equipment --------------------------------------------------------------------------
@@ -605,8 +511,6 @@ def list_runs(session: Session, campaign: str | None) -> list[RunRecord]:
 
 def _open(session: Session, campaign_id: uuid.UUID) -> None:
     """Refuse changes to an approved (locked) campaign."""
-    from testplan.store.signoff import ensure_open
-
     ensure_open(session, campaign_id)
 
 
@@ -646,7 +550,7 @@ class StartSheet:
     at: dt.datetime | None = None
     deviation: str | None = None
     deviation_reason: str | None = None
-    deviation_approver: str | None = None
+    deviation_approver: Signer | None = None
     external_provider: str | None = None
 
 
@@ -710,7 +614,7 @@ def start_run(session: Session, *, run: RunRecord, sheet: StartSheet) -> list[st
             raise RecordError(
                 "a deviation needs a reason and an authorised approver",
                 key="--deviation",
-                fix="add --deviation-reason '...' and --approved-by INITIALS",
+                fix="add --deviation-reason '...' and --approved-by INITIALS --key FILE",
             )
     old = audit.values_of(run, "state")
     run.state = "running"
@@ -767,29 +671,59 @@ def start_run(session: Session, *, run: RunRecord, sheet: StartSheet) -> list[st
     return warnings
 
 
+def deviation_message(row: Deviation, run: RunRecord, approver: str) -> bytes:
+    """What the approver signs: the deviation, its run, reason and time."""
+    return act_message(
+        "deviation.approve",
+        {
+            "deviation": str(row.id),
+            "run": str(run.id),
+            "run_key": run.key,
+            "description": row.description,
+            "reason": row.reason,
+            "approver": approver,
+            "at": row.recorded_at.astimezone(dt.UTC).isoformat(),
+        },
+    )
+
+
 def add_deviation(
     session: Session,
     *,
     run: RunRecord,
     description: str,
     reason: str,
-    approver: str,
+    approver: Signer,
     recorded_by: str,
 ) -> Deviation:
-    """A departure from the method, allowed only with an authorised approver and a reason."""
+    """A departure from the method, allowed only with a reason and the approval of an
+    authorised approver signed with their own key."""
     _open(session, run.campaign_id)
     _state(run, ("planned", "running", "finished"), "record a deviation on")
     if not description.strip() or not reason.strip():
         raise RecordError("a deviation needs a description and a reason", key="--reason")
+    description = clean_text(description, key="--description")
+    reason = clean_text(reason, key="--reason")
     by = find_person(session, recorded_by)
-    approved = require_role(session, approver, "approver", key="--approved-by")
     row = Deviation(
+        id=uuid.uuid4(),
         run_id=run.id,
         description=description,
         reason=reason,
-        approved_by_id=approved.id,
+        approved_by_id=find_person(session, approver.initials, key=approver.option).id,
         recorded_by_id=by.id,
+        recorded_at=utc_now(),
     )
+    approved, key, signature = sign_act(
+        session,
+        approver,
+        role="approver",
+        at=row.recorded_at,
+        message=lambda person: deviation_message(row, run, person.initials),
+    )
+    row.approved_by_id = approved.id
+    row.approval_key_id = key.id
+    row.approval_signature = signature
     session.add(row)
     session.flush()
     audit.append(
@@ -800,7 +734,12 @@ def add_deviation(
         entity_id=row.id,
         campaign_id=run.campaign_id,
         why=reason,
-        new={"run": run.key, "description": description, "approved_by": approved.initials},
+        new={
+            "run": run.key,
+            "description": description,
+            "approved_by": approved.initials,
+            "approval_key": key.fingerprint,
+        },
     )
     return row
 
@@ -834,23 +773,33 @@ def finish_run(
     return run
 
 
+def check_message(run: RunRecord, checker: str) -> bytes:
+    """What the checker signs: the run, when it was checked and the note."""
+    assert run.checked_at is not None
+    return act_message(
+        "run.check",
+        {
+            "run": str(run.id),
+            "run_key": run.key,
+            "checker": checker,
+            "checked_at": run.checked_at.astimezone(dt.UTC).isoformat(),
+            "note": run.check_note,
+        },
+    )
+
+
 def check_run(
     session: Session,
     *,
     run: RunRecord,
-    by: str,
+    by: Signer,
     note: str | None,
     at: dt.datetime | None = None,
 ) -> RunRecord:
-    """The data check by a second authorised person (not the operator)."""
+    """The data check by a second authorised person (not the operator), signed with the
+    checker's own key; the checker role is checked as granted at the check time."""
     _open(session, run.campaign_id)
     _state(run, ("finished",), "check")
-    checker = require_role(session, by, "checker")
-    if checker.id == run.operator_id:
-        raise RecordError(
-            f"{checker.initials} ran this run; the data check needs a second person",
-            key="--by",
-        )
     checked = at or utc_now()
     assert run.finished_at is not None
     if at is not None and checked < run.finished_at:
@@ -859,16 +808,31 @@ def check_run(
             f"({run.finished_at.isoformat()})",
             key="--at",
         )
-    run.state, run.checker_id, run.checked_at, run.check_note = (
+    note = clean_text(note, key="--note") if note is not None else None
+    checker = require_role(session, by.initials, "checker", key=by.option, at=checked)
+    if checker.id == run.operator_id:
+        raise RecordError(
+            f"{checker.initials} ran this run; the data check needs a second person",
+            key=by.option,
+        )
+    run.checked_at, run.check_note = checked, note
+    checker, key, signature = sign_act(
+        session,
+        by,
+        role="checker",
+        at=checked,
+        message=lambda person: check_message(run, person.initials),
+    )
+    run.state, run.checker_id, run.check_key_id, run.check_signature = (
         "checked",
         checker.id,
-        checked,
-        note,
+        key.id,
+        signature,
     )
     session.add(run)
     audit.append(
         session,
-        actor=checker.initials,
+        actor=actor_of(checker, key),
         action="run.check",
         entity="run",
         entity_id=run.id,
@@ -877,6 +841,64 @@ def check_run(
         new=audit.values_of(run, "state", "checked_at", "check_note"),
     )
     return run
+
+
+def act_problems(session: Session, campaign_id: uuid.UUID, trust: Trust) -> list[str]:
+    """What does not stand among the campaign's signed data checks and deviation approvals:
+    each needs its person's key, active then, the role held then, and (``trust``) an
+    enrolment back to the anchor. Acts recorded before signed acts existed (schema 0010)
+    carry no signature and are named only under an exported anchor."""
+    out = []
+    runs = session.exec(select(RunRecord).where(RunRecord.campaign_id == campaign_id)).all()
+    acts: list[tuple[str, uuid.UUID, uuid.UUID | None, str, dt.datetime, Any, str | None]] = []
+    for run in runs:
+        if run.checker_id is not None and run.checked_at is not None:
+            acts.append(
+                (
+                    f"data check of {run.key}",
+                    run.checker_id,
+                    run.check_key_id,
+                    "checker",
+                    run.checked_at,
+                    lambda who, run=run: check_message(run, who),
+                    run.check_signature,
+                )
+            )
+        for d in session.exec(select(Deviation).where(Deviation.run_id == run.id)):
+            acts.append(
+                (
+                    f"deviation approval on {run.key}",
+                    d.approved_by_id,
+                    d.approval_key_id,
+                    "approver",
+                    d.recorded_at,
+                    lambda who, d=d, run=run: deviation_message(d, run, who),
+                    d.approval_signature,
+                )
+            )
+    for label, person_id, key_id, role, at, message, signature in acts:
+        person = session.get(Person, person_id)
+        key = session.get(PersonKey, key_id) if key_id else None
+        if person is None:
+            out.append(f"{label}: its person is not in the register")
+            continue
+        if key is None or signature is None:
+            if trust.fingerprints is not None:
+                out.append(f"{label} by {person.initials}: not signed with a key")
+            continue
+        problem = signature_problem(
+            session,
+            person=person,
+            key=key,
+            role=role,
+            at=at,
+            message=message(person.initials),
+            signature=signature,
+            trust=trust,
+        )
+        if problem is not None:
+            out.append(f"{label} by {person.initials}: {problem}")
+    return out
 
 
 def receive_specimens(

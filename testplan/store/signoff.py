@@ -22,7 +22,17 @@ from sqlmodel import Session, col, select
 from testplan import keys
 from testplan.errors import CriteriaFailedError, RecordError
 from testplan.store import audit
-from testplan.store.records import find_campaign, find_person, require_role, roles_of
+from testplan.store.identity import (
+    Signer,
+    Trust,
+    find_person,
+    require_role,
+    signature_problem,
+    signer_key,
+)
+from testplan.store.lock import approved_manifest as approved_manifest  # re-exported
+from testplan.store.lock import ensure_open as ensure_open  # re-exported
+from testplan.store.records import act_problems, find_campaign
 from testplan.store.tables import (
     Amendment,
     Attachment,
@@ -57,11 +67,20 @@ def _h(value: Any) -> str:
     return hashlib.sha256(audit.canonical(value).encode()).hexdigest()
 
 
+# Columns added after records were first signed: left out of a record's hash while empty,
+# so a report signed before they existed still verifies after the upgrade.
+LATER_COLUMNS = frozenset(
+    {"check_key_id", "check_signature", "approval_key_id", "approval_signature"}
+)
+
+
 def _row(obj: Any, *skip: str) -> dict[str, Any]:
     """A record's columns as plain values (bytes become their SHA-256)."""
     out = {}
     for column in obj.__table__.columns:
         if column.name in skip:
+            continue
+        if column.name in LATER_COLUMNS and getattr(obj, column.name) is None:
             continue
         out[column.name] = getattr(obj, column.name)
     return out
@@ -180,7 +199,7 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
             "person",
             person,
             f"person {person.initials}",
-            {**_row(person, "public_key"), "roles": sorted(roles_of(session, person))},
+            _row(person, "public_key"),  # roles are checked at the time of each act
         )
     items.sort(key=lambda i: (i.kind, i.id))
     return items
@@ -213,64 +232,11 @@ def signatures_of(session: Session, manifest: Manifest) -> dict[str, Signature]:
     return {s.role: s for s in rows}
 
 
-def approved_manifest(session: Session, campaign_id: uuid.UUID) -> Manifest | None:
-    """The manifest that locks the campaign: approved and not amended since."""
-    manifest = session.exec(
-        select(Manifest)
-        .join(Signature, col(Signature.manifest_id) == col(Manifest.id))
-        .where(Manifest.campaign_id == campaign_id, Signature.role == "approved")
-        .order_by(col(Manifest.created_at).desc())
-    ).first()
-    if manifest is None:
-        return None
-    amended = session.exec(
-        select(Amendment).where(Amendment.supersedes_manifest_id == manifest.id)
-    ).first()
-    return None if amended else manifest
-
-
-def ensure_open(session: Session, campaign_id: uuid.UUID) -> None:
-    """Refuse a change to an approved campaign (called by every recording function)."""
-    if approved_manifest(session, campaign_id) is not None:
-        camp = session.get(CampaignRecord, campaign_id)
-        ref = camp.reference if camp else "the campaign"
-        raise RecordError(
-            f"{ref} is approved and locked; its records cannot change",
-            fix=f"record the reason with `testplan amend {ref} --why ...`, then sign again",
-        )
-
-
 def report_revision(session: Session, campaign_id: uuid.UUID) -> int:
     n = session.exec(
         select(sa.func.count()).select_from(Amendment).where(Amendment.campaign_id == campaign_id)
     ).one()
     return 1 + int(n)
-
-
-# --- keys ---------------------------------------------------------------------------------
-
-
-def register_key(session: Session, *, initials: str, public_b64: str, actor: str) -> PersonKey:
-    person = find_person(session, initials, key="PERSON")
-    fp = keys.fingerprint(public_b64)
-    if session.exec(select(PersonKey).where(PersonKey.fingerprint == fp)).first():
-        raise RecordError(f"key {fp[:16]} is already registered", key="--public")
-    row = PersonKey(person_id=person.id, public_key=public_b64, fingerprint=fp, registered_by=actor)
-    session.add(row)
-    old = person.public_key
-    person.public_key = public_b64
-    session.add(person)
-    session.flush()
-    audit.append(
-        session,
-        actor=actor,
-        action="key.register",
-        entity="person_key",
-        entity_id=row.id,
-        old={"public_key": old},
-        new={"person": person.initials, "fingerprint": fp},
-    )
-    return row
 
 
 # --- signing ------------------------------------------------------------------------------
@@ -340,29 +306,18 @@ def sign(
     *,
     campaign: str,
     role: str,
-    initials: str,
-    private_key: Any,
+    signer: Signer,
 ) -> Signed:
-    """Sign the campaign's records in ``role`` (prepared, reviewed, approved)."""
+    """Sign the campaign's records in ``role`` (prepared, reviewed, approved) with the
+    signer's own active key; the role is checked as granted now."""
     if role not in ROLES:
         raise RecordError(
             f"unknown role {role!r}", key="--role", fix="prepared, reviewed or approved"
         )
     camp = find_campaign(session, campaign)
     ensure_open(session, camp.id)
-    person = require_role(session, initials, ROLES[role], key="--as")
-    public = keys.public_of(private_key)
-    key_row = session.exec(
-        select(PersonKey).where(
-            PersonKey.person_id == person.id, PersonKey.fingerprint == keys.fingerprint(public)
-        )
-    ).first()
-    if key_row is None:
-        raise RecordError(
-            f"this key is not registered for {person.name} ({person.initials})",
-            key="--key",
-            fix=f"register its public key with `testplan keys register {person.initials}`",
-        )
+    person = require_role(session, signer.initials, ROLES[role], key=signer.option)
+    person, key_row = signer_key(session, signer)
     _ready(session, camp)
     items = compute_items(session, camp)
     root = root_of(items)
@@ -408,7 +363,7 @@ def sign(
             key="--as",
         )
     at = utc_now()
-    sig = keys.sign(private_key, message(root, role, camp.reference, person.initials, at))
+    sig = keys.sign(signer.private_key, message(root, role, camp.reference, person.initials, at))
     row = Signature(
         manifest_id=manifest.id,
         role=role,
@@ -421,7 +376,7 @@ def sign(
     session.flush()
     audit.append(
         session,
-        actor=person.initials,
+        actor=f"{person.initials} key {key_row.fingerprint[:16]}",
         action=f"signoff.{role}",
         entity="signature",
         entity_id=row.id,
@@ -550,10 +505,29 @@ class Verification:
     lines: list[str]
 
 
-def verify(session: Session, *, pdf_sha256: str, claimed: dict[str, Any]) -> Verification:
-    """Check a PDF against the store: issued record, signatures, and the records themselves."""
+def verify(
+    session: Session,
+    *,
+    pdf_sha256: str,
+    claimed: dict[str, Any],
+    trust: set[str] | None = None,
+) -> Verification:
+    """Check a PDF against the store: issued record, signatures, and the records themselves.
+
+    ``trust``: fingerprints of the exported manager keys (``keys trust``); every signing key
+    must chain back to one of them. None: the founding manager's key in the store is the
+    anchor, which is only as strong as the store file.
+    """
     problems: list[str] = []
     lines: list[str] = []
+    anchor = Trust(trust)
+    if trust is None:
+        lines.append(
+            "trust anchor: the founding manager's key in this store (only as strong as the "
+            "store file; give --trust FILE from `testplan keys trust`)"
+        )
+    else:
+        lines.append(f"trust anchor: {len(trust)} manager key(s) from --trust")
     issue = session.exec(select(ReportIssue).where(ReportIssue.pdf_sha256 == pdf_sha256)).first()
     root = claimed.get("manifest_root")
     if issue is None:
@@ -590,17 +564,21 @@ def verify(session: Session, *, pdf_sha256: str, claimed: dict[str, Any]) -> Ver
             problems.append(f"{role} signature: its key is not registered for the signer")
             continue
         msg = message(manifest.root, role, camp.reference, person.initials, s.signed_at)
-        if not keys.verify(key.public_key, msg, s.signature):
-            problems.append(
-                f"{role} signature of {person.initials}: does not verify with the "
-                f"registered key {key.fingerprint[:16]}"
-            )
-        elif ROLES[role] not in roles_of(session, person):
-            problems.append(
-                f"{role} signature of {person.initials}: not authorised as {ROLES[role]}"
-            )
+        problem = signature_problem(
+            session,
+            person=person,
+            key=key,
+            role=ROLES[role],
+            at=s.signed_at,
+            message=msg,
+            signature=s.signature,
+            trust=anchor,
+        )
+        if problem is not None:
+            problems.append(f"{role} signature of {person.initials}: {problem}")
         else:
             lines.append(f"{role}: {person.name} ({person.initials}), key {key.fingerprint[:16]}")
+    problems.extend(act_problems(session, camp.id, anchor))
     amendment = session.exec(
         select(Amendment).where(Amendment.supersedes_manifest_id == manifest.id)
     ).first()

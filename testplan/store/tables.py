@@ -66,10 +66,21 @@ class Person(SQLModel, table=True):
     created_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
 
 
-class PersonRole(SQLModel, table=True):
-    __tablename__ = "person_role"
-    person_id: uuid.UUID = Field(foreign_key="person.id", primary_key=True)
-    role: str = Field(primary_key=True, max_length=16)
+class RoleGrant(SQLModel, table=True):
+    """One grant or withdrawal of a role, dated, with its reason, signed by a manager's key
+    (the founding grant of a store's first manager is the one unsigned grant). Append-only:
+    the roles in force at a time are the last act for each role at or before it."""
+
+    __tablename__ = "role_grant"
+    id: uuid.UUID = Field(default_factory=_id, primary_key=True)
+    person_id: uuid.UUID = Field(foreign_key="person.id", index=True)
+    role: str = Field(max_length=16)
+    action: str = Field(max_length=16)  # grant, withdraw
+    at: dt.datetime = Field(sa_type=UTCDateTime)
+    reason: str
+    by_person_id: uuid.UUID | None = Field(default=None, foreign_key="person.id")
+    by_key_id: uuid.UUID | None = Field(default=None, foreign_key="person_key.id")
+    signature: str | None = Field(default=None, max_length=128)
 
 
 class Equipment(SQLModel, table=True):
@@ -211,6 +222,8 @@ class RunRecord(SQLModel, table=True):
     checker_id: uuid.UUID | None = Field(default=None, foreign_key="person.id")
     checked_at: dt.datetime | None = Field(default=None, sa_type=UTCDateTime)
     check_note: str | None = None
+    check_key_id: uuid.UUID | None = None  # the checker's person_key
+    check_signature: str | None = Field(default=None, max_length=128)
     external_provider: str | None = None
 
 
@@ -239,6 +252,8 @@ class Deviation(SQLModel, table=True):
     approved_by_id: uuid.UUID = Field(foreign_key="person.id")
     recorded_by_id: uuid.UUID = Field(foreign_key="person.id")
     recorded_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
+    approval_key_id: uuid.UUID | None = None  # the approver's person_key
+    approval_signature: str | None = Field(default=None, max_length=128)
 
 
 class AuditEntry(SQLModel, table=True):
@@ -426,6 +441,23 @@ class PersonKey(SQLModel, table=True):
     fingerprint: str = Field(unique=True, max_length=64)
     registered_by: str
     registered_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
+    proof: str | None = Field(default=None, max_length=128)
+    enrolled_by_key_id: uuid.UUID | None = None  # the manager's key that countersigned
+    enrolment_signature: str | None = Field(default=None, max_length=128)
+
+
+class KeyRevocation(SQLModel, table=True):
+    """A key withdrawn from a stated time, with the reason, signed by a manager's key."""
+
+    __tablename__ = "key_revocation"
+    id: uuid.UUID = Field(default_factory=_id, primary_key=True)
+    key_id: uuid.UUID = Field(foreign_key="person_key.id", index=True)
+    effective_at: dt.datetime = Field(sa_type=UTCDateTime)
+    reason: str
+    by_person_id: uuid.UUID = Field(foreign_key="person.id")
+    by_key_id: uuid.UUID = Field(foreign_key="person_key.id")
+    signature: str = Field(max_length=128)
+    recorded_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
 
 
 class Manifest(SQLModel, table=True):

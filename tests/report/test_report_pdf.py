@@ -20,21 +20,10 @@ def report(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[str], P
     """A store with an immersion (with a dip) and an endurance run, judged and reported."""
     folder = tmp_path_factory.mktemp("report")
     b = Bench(f"sqlite:///{folder / 'lab.db'}", folder)
-    b("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator", "--quiet")
-    b(
-        "people",
-        "add",
-        "MO",
-        "--name",
-        "Mark Osei",
-        "--role",
-        "checker",
-        "--role",
-        "approver",
-        "--by",
-        "AK",
-        "--quiet",
-    )
+    b.found()
+    b.add("AK", "Anna Kowal", "operator")
+    b.add("MO", "Mark Osei", "checker", "approver")
+    b.enrol("MO")
     b("init", str(SAMPLE), "--quiet")
     b(
         "record",
@@ -82,6 +71,8 @@ def report(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[str], P
         "evaporation",
         "--approved-by",
         "MO",
+        "--key",
+        b.key("MO"),
         "--quiet",
     )
     t0 = dt.datetime(2027, 1, 12, 16, 5, tzinfo=dt.UTC)
@@ -102,7 +93,7 @@ def report(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[str], P
         "--quiet",
     )
     b("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
-    b("record", "check", RUN, "--by", "MO", "--at", "2027-01-16T09:00Z", "--quiet")
+    b("record", "check", RUN, *b.signed("MO"), "--at", "2027-01-16T09:00Z", "--quiet")
     start = [a if a != "LT-03" else "TQ-11" for a in START]
     b("record", "start", KNOB, *start, "--at", "2027-01-12T11:00Z", "--quiet")
     k0 = dt.datetime(2027, 1, 12, 11, tzinfo=dt.UTC)

@@ -18,6 +18,8 @@ from testplan.cli import app
 
 SAMPLE = Path(__file__).resolve().parents[2] / "sample_campaign" / "flood-gauge-node.toml"
 PG_URL = os.environ.get("TESTPLAN_TEST_PG_URL")
+PASS = "a demo passphrase"
+MANAGER = "QM"
 NO_PG = "no PostgreSQL server given: set TESTPLAN_TEST_PG_URL (.ci/run starts a throwaway one)"
 
 
@@ -54,7 +56,7 @@ class Bench:
     def __init__(self, url: str, folder: Path) -> None:
         self.url = url
         self.folder = folder
-        self.runner = CliRunner()
+        self.runner = CliRunner(env={"TESTPLAN_KEY_PASSPHRASE": PASS})
 
     def __call__(self, *args: str, ok: bool = True):  # type: ignore[no-untyped-def]
         result = self.runner.invoke(app, [*args, "--db", self.url])
@@ -122,6 +124,34 @@ class Bench:
         finally:
             engine.dispose()
 
+    def key(self, who: str) -> str:
+        """The private key file of ``who`` (made by ``enrol``)."""
+        return str(self.folder / f"{who}.pem")
+
+    def signed(self, who: str) -> tuple[str, ...]:
+        """``--by WHO --key WHO.pem``: an act signed by ``who``."""
+        return ("--by", who, "--key", self.key(who))
+
+    def enrol(self, who: str, by: str = MANAGER) -> None:
+        """Make ``who`` a key pair and have the manager ``by`` enrol it."""
+        if not Path(self.key(who)).exists():
+            self.plain("keys", "new", who, "--out", self.key(who))
+        self(
+            "keys", "register", who, "--public", self.key(who) + ".pub", *self.signed(by), "--quiet"
+        )
+
+    def found(self) -> None:
+        """The store's founding manager QM, with an enrolled key."""
+        self("people", "add", MANAGER, "--name", "Quinn Marsh", "--role", "manager", "--quiet")
+        self.plain("keys", "new", MANAGER, "--out", self.key(MANAGER))
+        self("keys", "register", MANAGER, "--public", self.key(MANAGER) + ".pub",
+             *self.signed(MANAGER), "--quiet")  # fmt: skip
+
+    def add(self, who: str, name: str, *roles: str) -> None:
+        """Register ``who`` with ``roles``, added and signed by the manager."""
+        flags = [x for r in roles for x in ("--role", r)]
+        self("people", "add", who, "--name", name, *flags, *self.signed(MANAGER), "--quiet")
+
     def write(self, name: str, text: str) -> Path:
         path = self.folder / name
         path.write_text(text, encoding="utf-8")
@@ -152,35 +182,12 @@ def bench(db_url: str, tmp_path: Path) -> Bench:
 def stock(b: Bench) -> Bench:
     """Fill an empty store with the sample campaign, three people and LT-03."""
     b("init", str(SAMPLE), "--quiet")
-    b("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator", "--quiet")
-    b(
-        "people",
-        "add",
-        "MO",
-        "--name",
-        "Mark Osei",
-        "--role",
-        "checker",
-        "--role",
-        "approver",
-        "--by",
-        "AK",
-        "--quiet",
-    )
-    b(
-        "people",
-        "add",
-        "JT",
-        "--name",
-        "Jo Tran",
-        "--role",
-        "operator",
-        "--role",
-        "checker",
-        "--by",
-        "MO",
-        "--quiet",
-    )
+    b.found()
+    b.add("AK", "Anna Kowal", "operator")
+    b.add("MO", "Mark Osei", "checker", "approver")
+    b.add("JT", "Jo Tran", "operator", "checker")
+    for who in ("MO", "JT"):
+        b.enrol(who)
     b(
         "equipment",
         "add",
@@ -223,40 +230,16 @@ def stock(b: Bench) -> Bench:
 
 
 RUN = "water-8@ip-verification-1"
-PASS = "a demo passphrase"
 
 
 def record_and_judge(bench: Bench, *, deviation: bool = False) -> Bench:
-    """One run recorded, checked and judged; RP, LV, MO hold registered keys (the key
-    passphrase comes from $TESTPLAN_KEY_PASSPHRASE, set to PASS by the caller). With
+    """One run recorded, checked and judged; RP, LV, MO hold enrolled keys (the key
+    passphrase comes from $TESTPLAN_KEY_PASSPHRASE, set to PASS by the Bench). With
     ``deviation`` the run also carries an approved deviation."""
-    bench("people", "add", "RP", "--name", "Rita Pereira", "--role", "preparer", "--quiet")
-    bench(
-        "people",
-        "add",
-        "LV",
-        "--name",
-        "Lars Vik",
-        "--role",
-        "reviewer",
-        "--role",
-        "preparer",
-        "--quiet",
-    )
-    bench("people", "authorise", "MO", "--role", "approver", "--quiet")
-    for who in ("RP", "LV", "MO"):
-        result = bench.plain("keys", "new", who, "--out", str(bench.folder / f"{who}.pem"))
-        assert result.stdout.startswith(f"{who}: key ")
-        bench(
-            "keys",
-            "register",
-            who,
-            "--public",
-            str(bench.folder / f"{who}.pem.pub"),
-            "--by",
-            "MO",
-            "--quiet",
-        )
+    bench.add("RP", "Rita Pereira", "preparer")
+    bench.add("LV", "Lars Vik", "reviewer", "preparer")
+    for who in ("RP", "LV"):
+        bench.enrol(who)
     bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
     t0 = dt.datetime(2027, 1, 12, 16, 5, tzinfo=dt.UTC)
     rows = ["time,depth"] + [
@@ -297,12 +280,14 @@ def record_and_judge(bench: Bench, *, deviation: bool = False) -> Bench:
             "slow leak at the tank valve",
             "--approved-by",
             "MO",
+            "--key",
+            bench.key("MO"),
             "--by",
             "AK",
             "--quiet",
         )
     bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
-    bench("record", "check", RUN, "--by", "MO", "--at", "2027-01-16T09:00Z", "--quiet")
+    bench("record", "check", RUN, *bench.signed("MO"), "--at", "2027-01-16T09:00Z", "--quiet")
     bench("judge", "--quiet", ok=False)
     return bench
 

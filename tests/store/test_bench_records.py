@@ -136,6 +136,8 @@ def test_a_deviation_needs_an_authorised_approver_and_a_reason(bench: Bench) -> 
         "valve leak",
         "--approved-by",
         "JT",
+        "--key",
+        bench.key("JT"),
     )
     assert line.startswith("error: --approved-by: Jo Tran (JT) is not authorised as approver")
     assert bench.sql("SELECT state FROM run WHERE key = :k", k=RUN) == [("planned",)]
@@ -149,6 +151,8 @@ def test_a_deviation_needs_an_authorised_approver_and_a_reason(bench: Bench) -> 
         "valve leak",
         "--approved-by",
         "MO",
+        "--key",
+        bench.key("MO"),
         "--quiet",
     )
     rows = bench.sql(
@@ -166,6 +170,8 @@ def test_a_deviation_needs_an_authorised_approver_and_a_reason(bench: Bench) -> 
         "chiller fault",
         "--approved-by",
         "MO",
+        "--key",
+        bench.key("MO"),
         "--by",
         "AK",
         "--quiet",
@@ -182,15 +188,16 @@ def test_finish_then_check_by_a_second_person(bench: Bench) -> None:
         "record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T16:10"
     )
     bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T16:10Z", "--quiet")
-    assert bench.fail("record", "check", RUN, "--by", "AK") == (
-        "error: --by: Anna Kowal (AK) is not authorised as checker "
-        "(authorise them with `testplan people authorise AK --role checker`)"
-    )
-    bench("people", "authorise", "AK", "--role", "checker", "--by", "MO", "--quiet")
-    assert bench.fail("record", "check", RUN, "--by", "AK") == (
+    bench.enrol("AK")
+    line = bench.fail("record", "check", RUN, *bench.signed("AK"))
+    assert line.startswith("error: --by: Anna Kowal (AK) is not authorised as checker on ")
+    assert line.endswith("(a manager grants it with `testplan people grant AK --role checker`)")
+    bench("people", "grant", "AK", "--role", "checker", "--why", "trained",
+          *bench.signed("QM"), "--quiet")  # fmt: skip
+    assert bench.fail("record", "check", RUN, *bench.signed("AK")) == (
         "error: --by: AK ran this run; the data check needs a second person"
     )
-    bench("record", "check", RUN, "--by", "JT", "--note", "logs complete", "--quiet")
+    bench("record", "check", RUN, *bench.signed("JT"), "--note", "logs complete", "--quiet")
     assert bench.sql("SELECT state, check_note FROM run WHERE key = :k", k=RUN) == [
         ("checked", "logs complete")
     ]
@@ -205,13 +212,13 @@ def test_finish_then_check_by_a_second_person(bench: Bench) -> None:
         (
             ["ZZ", "--role", "tester"],
             "error: --role: unknown role 'tester'; roles are operator, "
-            "checker, preparer, reviewer, approver",
+            "checker, preparer, reviewer, approver, manager",
         ),
         (["AK", "--role", "operator"], "error: INITIALS: 'AK' is already in the people register"),
     ],
 )
 def test_people_register_refusals(bench: Bench, args: list[str], expected: str) -> None:
-    line = bench.fail("people", "add", *args, "--name", "Someone")
+    line = bench.fail("people", "add", *args, "--name", "Someone", *bench.signed("QM"))
     assert line.startswith(expected)
 
 

@@ -43,7 +43,7 @@ def test_two_bench_stores_merge_into_the_lab_store(bench: Bench, tmp_path: Path)
     assert again.stdout.startswith("copied 0 rows (")
     # The merged campaign is checked, judged, signed off and its report verifies.
     for run in (RUN_A, RUN_B):
-        bench("record", "check", run, "--by", "MO", "--quiet")
+        bench("record", "check", run, *bench.signed("MO"), "--quiet")
     bench("judge", "--quiet", ok=False)
     sign_off(bench, tmp_path)
     pdf = tmp_path / "merged.pdf"
@@ -52,21 +52,12 @@ def test_two_bench_stores_merge_into_the_lab_store(bench: Bench, tmp_path: Path)
 
 
 def sign_off(b: Bench, folder: Path) -> None:
-    """Preparer, reviewer and approver with registered keys sign the campaign."""
-    import os
-
-    os.environ["TESTPLAN_KEY_PASSPHRASE"] = "merge test passphrase"
-    try:
-        for who, role in (("RP", "preparer"), ("LV", "reviewer")):
-            b("people", "add", who, "--name", who, "--role", role, "--quiet")
-        b("people", "authorise", "MO", "--role", "approver", "--quiet")
-        for who, role in (("RP", "prepared"), ("LV", "reviewed"), ("MO", "approved")):
-            key = folder / f"{who}.pem"
-            b.plain("keys", "new", who, "--out", str(key))
-            b("keys", "register", who, "--public", f"{key}.pub", "--quiet")
-            b("sign", "QC-2027-014", "--role", role, "--as", who, "--key", str(key), "--quiet")
-    finally:
-        del os.environ["TESTPLAN_KEY_PASSPHRASE"]
+    """Preparer, reviewer and approver with enrolled keys sign the campaign."""
+    for who, role in (("RP", "preparer"), ("LV", "reviewer")):
+        b.add(who, who, role)
+        b.enrol(who)
+    for who, role in (("RP", "prepared"), ("LV", "reviewed"), ("MO", "approved")):
+        b("sign", "QC-2027-014", "--role", role, "--as", who, "--key", b.key(who), "--quiet")
 
 
 def test_a_run_recorded_at_two_benches_is_a_conflict(bench: Bench, tmp_path: Path) -> None:

@@ -10,18 +10,18 @@ UNKNOWN = "water-8@ip-verfication-1"
 RUN_COMMANDS = [
     ["record", "start", UNKNOWN, *START],
     ["record", "deviation", UNKNOWN, "--description", "d", "--reason", "r", "--approved-by",
-     "MO", "--by", "AK"],
+     "MO", "--key", "{mo}", "--by", "AK"],
     ["record", "import", UNKNOWN, "{csv}", "--map", "level[mm]=lowest_point_depth", "--by", "AK"],
     ["record", "observe", UNKNOWN, "--note", "n", "--by", "AK"],
     ["record", "finish", UNKNOWN, "--by", "AK"],
-    ["record", "check", UNKNOWN, "--by", "MO"],
+    ["record", "check", UNKNOWN, "--by", "MO", "--key", "{mo}"],
 ]  # fmt: skip
 
 
 @pytest.mark.parametrize("args", RUN_COMMANDS, ids=lambda a: " ".join(a[:2]))
 def test_an_unknown_run_is_named_with_a_suggestion(bench: Bench, args: list[str]) -> None:
     csv = bench.write("log.csv", "time,level\n2027-01-12T16:05:00Z,2054\n")
-    args = [str(csv) if a == "{csv}" else a for a in args]
+    args = [{"{csv}": str(csv), "{mo}": bench.key("MO")}.get(a, a) for a in args]
     assert bench.fail(*args) == (
         f"error: RUN: no run '{UNKNOWN}' in the store (did you mean 'water-8@ip-verification-1'?)"
     )
