@@ -121,12 +121,23 @@ def bench_store(folder: Path, url: str | None = None) -> str:
     """A store with the sample campaign, an operator, a calibrated instrument and the run
     started; returns its URL."""
     url = url or f"sqlite:///{folder / 'template.db'}"
-    env = {**os.environ, "TESTPLAN_DB": url}
+    key = folder / "qm.pem"
+    env = {
+        **os.environ,
+        "TESTPLAN_DB": url,
+        "TESTPLAN_KEY": str(key),
+        "TESTPLAN_KEY_PASSPHRASE": "bench manager passphrase",
+    }
 
     def tp(*args: str) -> None:
         subprocess.run([TESTPLAN, *args], check=True, env=env, stdout=subprocess.DEVNULL)
 
-    tp("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator", "-q")
+    # the store's founding manager enrols their key, then adds the operator
+    tp("people", "add", "QM", "--name", "Quinn Marsh", "--role", "manager", "-q")
+    if not key.exists():
+        tp("keys", "new", "QM", "--out", str(key))
+    tp("keys", "register", "QM", "--public", f"{key}.pub", "--by", "QM", "-q")
+    tp("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator", "--by", "QM", "-q")
     tp("init", str(SAMPLE), "-q")
     tp("equipment", "add", "LT-03", "--description", "transmitter", "-q")
     for channel in ("lowest_point_depth", "water_temperature", "specimen_temperature"):

@@ -36,7 +36,16 @@ def call(*args):
         if code not in (0, 3, None):
             raise SystemExit(f"{args[:3]} failed with {code}")
 
-call("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator")
+import os
+os.environ["TESTPLAN_KEY"] = f"{work}/qm.pem"
+os.environ["TESTPLAN_KEY_PASSPHRASE"] = "bench manager passphrase"
+call("people", "add", "QM", "--name", "Quinn Marsh", "--role", "manager")
+try:
+    app(["keys", "new", "QM", "--out", f"{work}/qm.pem"], standalone_mode=False)
+except (SystemExit, typer.Exit):
+    pass
+call("keys", "register", "QM", "--public", f"{work}/qm.pem.pub", "--by", "QM")
+call("people", "add", "AK", "--name", "Anna Kowal", "--role", "operator", "--by", "QM")
 call("init", f"{work}/campaign.toml")
 call("equipment", "add", "LT-03", "--description", "bench instruments", "--by", "AK")
 CHANNELS = {"probe_force": ("N", 0.05), "depression": ("kPa", 0.05),

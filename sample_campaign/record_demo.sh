@@ -14,12 +14,27 @@ bench="$out/bench"
 q=--quiet
 S=QC-2027-014-S
 
-# People and what each is authorised for.
-testplan people add AK --name "Anna Kowal" --role operator $q
-testplan people add JT --name "Jo Tran" --role operator --role checker --by AK $q
-testplan people add MO --name "Mark Osei" --role checker --role approver --by AK $q
-testplan people add RP --name "Rita Pereira" --role preparer --by MO $q
-testplan people add LV --name "Lars Vik" --role reviewer --by MO $q
+# People, their roles and their keys (an invented demo passphrase). DK founds the store as
+# its manager and enrols her own first key; after that she signs every grant and enrolment.
+export TESTPLAN_KEY_PASSPHRASE="q-brook demo key, not for use"
+keys="$out/keys"
+rm -rf "$keys" && mkdir -p "$keys"
+for who in DK JT MO RP LV; do
+    testplan keys new $who --out "$keys/$who.pem"
+done
+testplan people add DK --name "Dana Kerrow" --role manager $q
+mgr=(--by DK --key "$keys/DK.pem")
+testplan keys register DK --public "$keys/DK.pem.pub" "${mgr[@]}" $q
+testplan people add AK --name "Anna Kowal" --role operator "${mgr[@]}" $q
+testplan people add JT --name "Jo Tran" --role operator --role checker "${mgr[@]}" $q
+testplan people add MO --name "Mark Osei" --role checker --role approver "${mgr[@]}" $q
+testplan people add RP --name "Rita Pereira" --role preparer "${mgr[@]}" $q
+testplan people add LV --name "Lars Vik" --role reviewer "${mgr[@]}" $q
+for who in JT MO RP LV; do
+    testplan keys register $who --public "$keys/$who.pem.pub" "${mgr[@]}" $q
+done
+mo=(--by MO --key "$keys/MO.pem")
+jt=(--by JT --key "$keys/JT.pem")
 
 testplan init "$here/flood-gauge-node.toml" --by AK $q
 testplan record receive ${S}01 ${S}02 ${S}03 ${S}04 ${S}05 ${S}06 --on 2027-01-06 \
@@ -60,7 +75,7 @@ testplan record start $run --operator AK --equipment FM-02 "${amb[@]}" --state-o
 testplan record import $run "$bench/jet-ip1.csv" --map "Q1[L/min]=flow@FM-02" --map "P1[bar]=nozzle_pressure@FM-02" --by AK $q
 testplan record observe $run --sheet "$bench/after-jets.toml" --by AK $q
 testplan record finish $run --by AK --at 2027-01-12T08:09Z $q
-testplan record check $run --by MO --at 2027-01-12T11:30Z $q
+testplan record check $run "${mo[@]}" --at 2027-01-12T11:30Z $q
 
 # 72 h immersion at 2 m of S01 and S02.
 run=water-8@ip-verification-1
@@ -71,7 +86,7 @@ testplan record import $run "$bench/tank-ip1.csv" --tz Europe/London --time-colu
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}01" --map "s2_C[degC]=specimen_temperature@TT-07#${S}02" --by AK $q
 testplan record observe $run --sheet "$bench/after-ip1.toml" --by AK $q
 testplan record finish $run --by AK --at 2027-01-15T16:20Z $q
-testplan record check $run --by MO --at 2027-01-18T09:00Z $q
+testplan record check $run "${mo[@]}" --at 2027-01-18T09:00Z $q
 
 # Mode-selector knob endurance on S03-S05 (three rig stations).
 run=endurance-mode-selector-knob@aged-1
@@ -81,7 +96,7 @@ testplan record import $run "$bench/rig-knob.csv" --map "cycles[cycle]=cycle_cou
     --map "tq_st3[N*mm]=torque@TQ-11#${S}05" --by JT $q
 testplan record observe $run --note "no failures; detents crisp on all three at 54 000 cycles" --by JT $q
 testplan record finish $run --by JT --at 2027-01-16T05:05Z $q
-testplan record check $run --by MO --at 2027-01-18T10:00Z $q
+testplan record check $run "${mo[@]}" --at 2027-01-18T10:00Z $q
 
 # Salt mist, IEC 60068-2-52 method 2, on S03-S05.
 run=salt-mist@aged-1
@@ -97,7 +112,7 @@ for n in 03 04 05; do
         --function pass --by AK $q
 done
 testplan record finish $run --by AK --at 2027-01-21T08:00Z $q
-testplan record check $run --by JT --at 2027-01-21T15:00Z $q
+testplan record check $run "${jt[@]}" --at 2027-01-21T15:00Z $q
 
 # 72 h immersion of S03 and S04 after ageing: the tank is topped up at hour 30.
 run=water-8@aged-1
@@ -106,8 +121,10 @@ testplan record import $run "$bench/tank-aged1.csv" --tz Europe/London --time-co
     --map "depth_cm[cm]=lowest_point_depth@LT-03" --map "water_C[degC]=water_temperature@LT-03" \
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}03" --map "s2_C[degC]=specimen_temperature@TT-07#${S}04" --by AK $q
 testplan record observe $run --sheet "$bench/after-aged1.toml" --by AK $q
+testplan record deviation $run --description "tank topped up at hour 30 while the specimens stayed immersed" \
+    --reason "evaporation lowered the level" --approved-by MO --key "$keys/MO.pem" --by AK $q
 testplan record finish $run --by AK --at 2027-01-24T14:20Z $q
-testplan record check $run --by JT --at 2027-01-25T09:00Z $q
+testplan record check $run "${jt[@]}" --at 2027-01-25T09:00Z $q
 
 # 72 h immersion of S05 after ageing.
 run=water-8@aged-2
@@ -117,7 +134,7 @@ testplan record import $run "$bench/tank-aged2.csv" --tz Europe/London --time-co
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}05" --by JT $q
 testplan record observe $run --sheet "$bench/after-aged2.toml" --by JT $q
 testplan record finish $run --by JT --at 2027-01-28T08:30Z $q
-testplan record check $run --by MO --at 2027-01-28T11:00Z $q
+testplan record check $run "${mo[@]}" --at 2027-01-28T11:00Z $q
 
 testplan store check
 testplan record list
@@ -125,17 +142,13 @@ testplan record list
 # Judge every finished run from its data; water-8@aged-1 fails (exit 3 is expected here).
 testplan judge || [ $? -eq 3 ]
 
-# Sign-off by three different people with their own keys (an invented demo passphrase).
-export TESTPLAN_KEY_PASSPHRASE="q-brook demo key, not for use"
-rm -rf "$out/keys" && mkdir -p "$out/keys"
-for who in RP LV MO; do
-    testplan keys new $who --out "$out/keys/$who.pem"
-    testplan keys register $who --public "$out/keys/$who.pem.pub" --by MO $q
-done
-testplan sign QC-2027-014 --role prepared --as RP --key "$out/keys/RP.pem" $q
-testplan sign QC-2027-014 --role reviewed --as LV --key "$out/keys/LV.pem" $q
-testplan sign QC-2027-014 --role approved --as MO --key "$out/keys/MO.pem" $q
+# Sign-off by three different people with their own keys.
+testplan sign QC-2027-014 --role prepared --as RP --key "$keys/RP.pem" $q
+testplan sign QC-2027-014 --role reviewed --as LV --key "$keys/LV.pem" $q
+testplan sign QC-2027-014 --role approved --as MO --key "$keys/MO.pem" $q
 
-# The issued test report, then a check of the PDF against the store.
+# The issued test report, then a check of the PDF against the store, and against the
+# manager keys exported as the trust anchor (kept apart from the store).
 testplan report QC-2027-014 -o "$out/report.pdf" --issue-date 2027-02-01 $q
-testplan verify "$out/report.pdf"
+testplan keys trust --out "$out/trust.json"
+testplan verify "$out/report.pdf" --trust "$out/trust.json"

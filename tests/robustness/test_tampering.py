@@ -6,6 +6,7 @@ lock can refuse) are named by `verify` as on SQLite."""
 
 from __future__ import annotations
 
+import datetime as dt
 import uuid
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -53,9 +54,20 @@ def extra_calibration(b: Bench) -> None:
     b.raw("UPDATE logger_channel SET calibration_id = :c", c=as_param(b, new))
 
 
-def extra_role(b: Bench) -> None:
-    ((pid,),) = b.sql("SELECT id FROM person WHERE initials = 'AK'")
-    b.raw("INSERT INTO person_role (person_id, role) VALUES (:p, 'approver')", p=pid)
+def extra_withdrawal(b: Bench) -> None:
+    """A withdrawal of the approver's role slipped in just after it was granted, so the
+    approval was made without the role."""
+    from sqlmodel import SQLModel
+
+    t = SQLModel.metadata.tables["role_grant"]
+    engine = sa.create_engine(b.url)
+    try:
+        with engine.begin() as conn:
+            at = conn.execute(sa.select(t.c.at).where(t.c.role == "approver")).scalar_one()
+    finally:
+        engine.dispose()
+    clone_row(b, "role_grant", "role = 'approver'", action="withdraw",
+              at=at + dt.timedelta(microseconds=1))  # fmt: skip
 
 
 RAW = f"raw file tank.csv of {RUN}"
@@ -148,7 +160,13 @@ CASES = [
         "person AK: deleted",
         True,  # on PostgreSQL the foreign keys refuse it
     ),
-    Tamper("person", "insert", extra_role, "person AK: changed", False),
+    Tamper(
+        "role grant",
+        "insert",
+        extra_withdrawal,
+        "approved signature of MO: MO was not authorised as approver on ",
+        False,  # grants are append-only: an insertion goes in on PostgreSQL too
+    ),
     Tamper(
         "deviation",
         "change",

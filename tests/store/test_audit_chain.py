@@ -107,8 +107,8 @@ def test_a_deleted_audit_entry_is_found(recorded: Bench) -> None:
     unlock_audit(recorded)
     recorded.raw("DELETE FROM audit WHERE seq = :s", s=seq)
     assert problems(recorded) == [
-        f"audit entry {seq + 1} (person.add person): entries {seq} to {seq} are missing",
-        f"audit entry {seq + 1} (person.add person): does not follow the entry before it "
+        f"audit entry {seq + 1} (role.grant role_grant): entries {seq} to {seq} are missing",
+        f"audit entry {seq + 1} (role.grant role_grant): does not follow the entry before it "
         "(chain broken)",
     ]
 
