@@ -28,7 +28,7 @@ if TYPE_CHECKING:  # pragma: no cover
 app = command_group("Signing keys: make a key pair, enrol or revoke a key, export the anchor.")
 
 ManagerOption = Annotated[
-    str, typer.Option("--by", help="Initials of the manager who signs this act.")
+    str | None, typer.Option("--by", help="Initials of the manager who signs this act.")
 ]
 
 
@@ -69,7 +69,7 @@ def keys_new_command(
 def keys_register_command(
     person: Annotated[str, typer.Argument(help="Initials of a registered person.")],
     public: Annotated[Path, typer.Option("--public", help="Public key file (FILE.pub).")],
-    by: ManagerOption,
+    by: ManagerOption = None,
     key: KeyOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
@@ -84,7 +84,7 @@ def keys_register_command(
     from testplan.store import identity
 
     found = read_public(public)
-    signer = load_signer(by, key)
+    signer = load_signer(by, key) if by is not None else None
     store = open_for_writing(db, quiet=quiet)
 
     def unit(session: Session) -> PersonKey:
@@ -100,8 +100,8 @@ def keys_register_command(
 @reports_errors
 def keys_revoke_command(
     person: Annotated[str, typer.Argument(help="Initials of the key's owner.")],
-    by: ManagerOption,
     why: Annotated[str, typer.Option("--why", help="Why the key is withdrawn.")],
+    by: ManagerOption = None,
     effective: Annotated[
         str | None,
         typer.Option("--from", help="Revoked from this time (ISO 8601; default now)."),
@@ -118,7 +118,7 @@ def keys_revoke_command(
     from testplan.store import identity
 
     when = parse_at(effective, "--from")
-    signer = load_signer(by, key)
+    signer = load_signer(by, key) if by is not None else None
     store = open_for_writing(db, quiet=quiet)
 
     def unit(session: Session) -> KeyRevocation:

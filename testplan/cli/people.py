@@ -65,7 +65,7 @@ def _change(
     action: str,
     initials: str,
     role: list[str],
-    by: str,
+    by: str | None,
     key: KeyOption,
     why: str,
     db: str | None,
@@ -73,7 +73,7 @@ def _change(
 ) -> None:
     from testplan.store import identity
 
-    signer = load_signer(by, key)
+    signer = load_signer(by, key) if by is not None else None
     store = open_for_writing(db, quiet=quiet)
 
     def unit(session: Session) -> tuple[Person, list[str]]:
@@ -86,7 +86,9 @@ def _change(
     typer.echo(f"{person.initials} now holds {', '.join(roles) or 'no roles'}")
 
 
-ManagerOption = Annotated[str, typer.Option("--by", help="Initials of the manager who signs.")]
+ManagerOption = Annotated[
+    str | None, typer.Option("--by", help="Initials of the manager who signs.")
+]
 WhyOption = Annotated[str, typer.Option("--why", help="Reason, for the audit trail.")]
 
 
@@ -95,8 +97,8 @@ WhyOption = Annotated[str, typer.Option("--why", help="Reason, for the audit tra
 def grant_command(
     initials: Annotated[str, typer.Argument(help="Initials of a registered person.")],
     role: Annotated[list[str], typer.Option("--role", help=ROLE_HELP)],
-    by: ManagerOption,
     why: WhyOption,
+    by: ManagerOption = None,
     key: KeyOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
@@ -113,8 +115,8 @@ def grant_command(
 def withdraw_command(
     initials: Annotated[str, typer.Argument(help="Initials of a registered person.")],
     role: Annotated[list[str], typer.Option("--role", help=ROLE_HELP)],
-    by: ManagerOption,
     why: WhyOption,
+    by: ManagerOption = None,
     key: KeyOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,

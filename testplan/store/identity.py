@@ -384,8 +384,13 @@ def sign_act(
     return person, key, keys.sign(signer.private_key, message(person))
 
 
-def _manager(session: Session, signer: Signer, doing: str) -> tuple[Person, PersonKey]:
+def _manager(session: Session, signer: Signer | None, doing: str) -> tuple[Person, PersonKey]:
     """The signer, if a manager now holding an active key; else one line naming managers."""
+    if signer is None:
+        raise RecordError(
+            f"{doing}: needs a manager's key (--by, --key); {_managers_text(session)}",
+            key="--by",
+        )
     person = find_person(session, signer.initials, key="--by")
     if MANAGER not in roles_of(session, person):
         raise RecordError(
@@ -442,12 +447,8 @@ def add_person(
             new={"initials": value, "name": clean, "roles": [MANAGER]},
         )
         return person
-    if by is None:
-        raise RecordError(
-            f"people add {value}: needs a manager's key (--by, --key); {_managers_text(session)}",
-            key="--by",
-        )
     manager, key = _manager(session, by, f"people add {value}")
+    assert by is not None
     person = Person(initials=value, name=clean)
     session.add(person)
     session.flush()
@@ -514,13 +515,14 @@ def change_roles(
     initials: str,
     roles: Sequence[str],
     action: str,
-    by: Signer,
+    by: Signer | None,
     why: str,
 ) -> Person:
     """Grant (``action`` "grant") or withdraw ("withdraw") roles, signed by a manager."""
     person = find_person(session, initials, key="PERSON")
     reason = clean_text(why, key="--why")
     manager, key = _manager(session, by, f"people {action} {person.initials}")
+    assert by is not None
     held = roles_of(session, person)
     for role in sorted({_check_role(r) for r in roles}):
         if action == "grant" and role in held:
@@ -536,7 +538,7 @@ def enrol_key(
     *,
     initials: str,
     public: keys.PublicKeyFile,
-    by: Signer,
+    by: Signer | None,
 ) -> PersonKey:
     """Enrol a person's key: checks the self-signature, one active key per person, and
     countersigns with the manager's key. A founding manager's first key, when the store
@@ -565,6 +567,9 @@ def enrol_key(
             key="PERSON",
             fix=f"revoke it first with `testplan keys revoke {person.initials}`",
         )
+    if by is None:
+        _manager(session, by, f"keys register {person.initials}")
+    assert by is not None
     by_fp = keys.fingerprint(keys.public_of(by.private_key))
     first_key = session.exec(select(PersonKey)).first() is None
     row = PersonKey(
@@ -615,7 +620,7 @@ def revoke_key(
     session: Session,
     *,
     initials: str,
-    by: Signer,
+    by: Signer | None,
     why: str,
     effective: dt.datetime | None = None,
 ) -> KeyRevocation:
@@ -629,6 +634,7 @@ def revoke_key(
     if not live:
         raise RecordError(f"{person.initials} holds no key to revoke", key="PERSON")
     manager, key = _manager(session, by, f"keys revoke {person.initials}")
+    assert by is not None
     target = live[-1]
     row = KeyRevocation(
         key_id=target.id,

@@ -112,7 +112,10 @@ def test_a_new_private_key_is_never_world_readable(bench: Bench) -> None:
 def test_registering_a_key_needs_a_manager_and_the_holders_proof(bench: Bench) -> None:
     bench.plain("keys", "new", "AK", "--out", bench.key("AK"))
     pub = bench.key("AK") + ".pub"
-    # the attack of the issue: an operator registers keys by naming the manager
+    # the attacks of the issue: no --by at all, or naming the manager without his key
+    assert bench.fail("keys", "register", "AK", "--public", pub) == (
+        "error: --by: keys register AK: needs a manager's key (--by, --key); QM is the manager"
+    )
     assert bench.fail("keys", "register", "AK", "--public", pub, "--by", MANAGER) == (
         "error: --key: QM signs this with their own key (give --key FILE (or set $TESTPLAN_KEY))"
     )
