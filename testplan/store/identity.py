@@ -732,6 +732,18 @@ def _legacy(session: Session, key: PersonKey) -> bool:
     return since is not None and key.registered_at < dt.datetime.fromisoformat(since.value)
 
 
+def store_anchor(session: Session) -> str:
+    """The founding manager's self-enrolled key in this store, named for verify's output."""
+    founding = _first_founding(session)
+    person = session.get(Person, founding.person_id) if founding else None
+    if person is None:
+        return "no founding manager in this store"
+    for key in session.exec(select(PersonKey).where(PersonKey.person_id == person.id)):
+        if key.enrolled_by_key_id == key.id:
+            return f"{person.initials}'s key {key.fingerprint[:16]}"
+    return f"{person.initials}, who holds no self-enrolled key"
+
+
 def key_problem(session: Session, key: PersonKey, trust: Trust) -> str | None:
     """Why ``key``'s enrolment does not chain back to the trusted keys, or None."""
     owner = session.get(Person, key.person_id)

@@ -29,6 +29,7 @@ from testplan.store.identity import (
     require_role,
     signature_problem,
     signer_key,
+    store_anchor,
 )
 from testplan.store.lock import approved_manifest as approved_manifest  # re-exported
 from testplan.store.lock import ensure_open as ensure_open  # re-exported
@@ -523,8 +524,8 @@ def verify(
     anchor = Trust(trust)
     if trust is None:
         lines.append(
-            "trust anchor: the founding manager's key in this store (only as strong as the "
-            "store file; give --trust FILE from `testplan keys trust`)"
+            f"trust anchor: the founding manager's key in this store, {store_anchor(session)} "
+            "(only as strong as the store file; give --trust FILE from `testplan keys trust`)"
         )
     else:
         lines.append(f"trust anchor: {len(trust)} manager key(s) from --trust")

@@ -258,7 +258,8 @@ def test_initials_are_trimmed_and_case_insensitive(bench: Bench) -> None:
 def test_a_signed_report_verifies_with_the_exported_anchor(judged: Bench) -> None:
     pdf = approve_and_issue(judged)
     plain = judged("verify", str(pdf)).stdout
-    assert "trust anchor: the founding manager's key in this store (only as strong" in plain
+    assert "trust anchor: the founding manager's key in this store, QM's key " in plain
+    assert "(only as strong as the store file; give --trust FILE" in plain
     result = judged("verify", str(pdf), "--trust", trust_file(judged))
     assert "trust anchor: 1 manager key(s) from --trust" in result.stdout
     assert result.stdout.splitlines()[-1] == f"verified: {pdf}"
@@ -377,3 +378,18 @@ def test_the_enrolment_chain_reaches_the_founder(judged: Bench) -> None:
     assert [c.person for c in chain] == ["RP", MANAGER]
     assert chain[0].enrolled_by == MANAGER and chain[1].enrolled_by is None
     assert base64.b64decode(chain[1].public_key)
+
+
+def test_a_bad_trust_file_is_one_line(judged: Bench) -> None:
+    pdf = approve_and_issue(judged)
+    bad = judged.write("trust.json", '{"testplan_trust": 1, "managers": [{"fingerprint": "x"}]}')
+    assert judged.fail("verify", str(pdf), "--trust", str(bad)) == (
+        "error: --trust: not a trust file written by `testplan keys trust`"
+    )
+    # a trust file from another lab's store: its manager key anchors nothing here
+    other = json.loads(Path(trust_file(judged)).read_text())
+    _, public = new_private_pem(PASS)
+    other["managers"] = [{"person": "XX", "fingerprint": fingerprint(public), "public_key": public}]
+    foreign = judged.write("foreign.json", json.dumps(other))
+    found = problems(judged, pdf, "--trust", str(foreign))
+    assert any("not in the trust anchor" in p for p in found), found
