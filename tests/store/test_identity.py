@@ -51,6 +51,26 @@ def test_the_first_person_founds_the_store_as_its_manager(bench: Bench) -> None:
     assert not any(a.startswith("os:") for (a,) in people_acts)
 
 
+def test_the_founder_of_a_store_is_only_its_manager(db_url: str, tmp_path: Path) -> None:
+    b = Bench(db_url, tmp_path)
+    line = b.fail("people", "add", "AK", "--name", "Anna Kowal", "--role", "approver")
+    assert line == (
+        "error: --role: the first person of a store is its founding manager; AK cannot also "
+        "take approver (add them with --role manager; another manager grants further roles)"
+    )
+    assert b.sql("SELECT count(*) FROM person") == [(0,)]
+
+
+def test_only_the_founder_enrols_their_own_first_key(bench: Bench) -> None:
+    bench.plain("keys", "new", "AK", "--out", bench.key("AK"))
+    line = bench.fail("keys", "register", "AK", "--public", bench.key("AK") + ".pub",
+                      *bench.signed("AK"))  # fmt: skip
+    assert line == (
+        "error: --by: keys register AK: needs a manager's key (--by, --key); QM is the manager"
+    )
+    assert bench.sql("SELECT count(*) FROM person_key") == [(3,)]
+
+
 def test_adding_a_person_needs_a_managers_key(bench: Bench) -> None:
     assert bench.fail("people", "add", "ZZ", "--name", "Zed", "--role", "operator") == (
         "error: --by: people add ZZ: needs a manager's key (--by, --key); QM is the manager"
@@ -332,6 +352,9 @@ def test_a_signature_made_with_a_revoked_key_does_not_verify(judged: Bench) -> N
         and p.endswith("of MO, revoked from 2026-01-01 00:00 UTC")
         for p in found
     ), found
+    # MO's data check and deviation approval were signed with the same key
+    for act in (f"data check of {RUN} by MO", f"deviation approval on {RUN} by MO"):
+        assert any(p.startswith(f"{act}: made with key ") for p in found), (act, found)
 
 
 def test_a_revoked_key_signs_nothing_more(judged: Bench) -> None:
