@@ -510,3 +510,6 @@ class ReportIssue(SQLModel, table=True):
     pdf_sha256: str = Field(unique=True, max_length=64)
     issued_by: str
     issued_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
+
+
+import testplan.store.limits  # noqa: E402, F401  (length limits before every flush)

@@ -416,3 +416,11 @@ def test_a_bad_trust_file_is_one_line(judged: Bench) -> None:
     foreign = judged.write("foreign.json", json.dumps(other))
     found = problems(judged, pdf, "--trust", str(foreign))
     assert any("not in the trust anchor" in p for p in found), found
+
+
+def test_length_limits_are_checked_before_either_database(bench: Bench) -> None:
+    """SQLite would keep a 70-character tag in a 64-character column; PostgreSQL would
+    refuse it. testplan refuses it on both, with the same line."""
+    line = bench.fail("equipment", "add", "X" * 70, "--description", "d", "--by", "AK")
+    assert line == "error: tag: is 70 characters; at most 64 (equipment.tag)"
+    assert bench.sql("SELECT count(*) FROM equipment") == [(1,)]
