@@ -424,3 +424,41 @@ def test_length_limits_are_checked_before_either_database(bench: Bench) -> None:
     line = bench.fail("equipment", "add", "X" * 70, "--description", "d", "--by", "AK")
     assert line == "error: tag: is 70 characters; at most 64 (equipment.tag)"
     assert bench.sql("SELECT count(*) FROM equipment") == [(1,)]
+
+
+def test_a_second_manager_chains_back_to_the_founder(bench: Bench) -> None:
+    """QM makes MO a manager; MO adds and enrols ZZ. ZZ's key and role chain MO -> QM, so a
+    trust file holding only QM's key accepts them; once MO's manager role is withdrawn, MO's
+    later acts do not."""
+    from sqlmodel import select
+
+    from testplan.store import identity
+    from testplan.store.engine import open_store
+    from testplan.store.tables import Person, PersonKey
+
+    anchor = identity.parse_trust(Path(trust_file(bench)).read_text())
+    bench("people", "grant", "MO", "--role", "manager", "--why", "deputy",
+          *bench.signed(MANAGER), "--quiet")  # fmt: skip
+    bench("people", "add", "ZZ", "--name", "Zed Zorn", "--role", "preparer", *bench.signed("MO"),
+          "--quiet")  # fmt: skip
+    bench.enrol("ZZ", by="MO")
+    bench("people", "withdraw", "MO", "--role", "manager", "--why", "deputy no more",
+          *bench.signed(MANAGER), "--quiet")  # fmt: skip
+    line = bench.fail("people", "add", "ZY", "--name", "Zoe", *bench.signed("MO"))
+    assert line.startswith("error: --by: people add ZY: MO is not a manager; QM is the manager")
+
+    def problems_of(who: str) -> tuple[str | None, str | None]:
+        store = open_store(bench.url)
+        try:
+            with store.reading() as s:
+                person = s.exec(select(Person).where(Person.initials == who)).one()
+                key = s.exec(select(PersonKey).where(PersonKey.person_id == person.id)).one()
+                now = identity.utc_now()
+                return (
+                    identity.key_problem(s, key, identity.Trust(anchor)),
+                    identity.authority_problem(s, person, "preparer", now, identity.Trust(anchor)),
+                )
+        finally:
+            store.engine.dispose()
+
+    assert problems_of("ZZ") == (None, None)
