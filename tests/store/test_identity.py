@@ -462,3 +462,20 @@ def test_a_second_manager_chains_back_to_the_founder(bench: Bench) -> None:
             store.engine.dispose()
 
     assert problems_of("ZZ") == (None, None)
+
+
+@pytest.mark.parametrize(
+    ("content", "told"),
+    [
+        (None, "no such public key file"),
+        ("not json", "not a testplan public key file (written by `testplan keys new`)"),
+        ("MCowBQYDK2VwAyEA\n", "not a testplan public key file"),
+        ('{"person": "AK", "public_key": "AAAA", "proof": "x"}', "not a testplan public key"),
+    ],
+)
+def test_a_bad_public_key_file_is_one_line(bench: Bench, content: str | None, told: str) -> None:
+    path = bench.folder / "ak.pub"
+    if content is not None:
+        path.write_text(content)
+    line = bench.fail("keys", "register", "AK", "--public", str(path), *bench.signed(MANAGER))
+    assert line.startswith(f"error: {path}: --public: {told}"), line
