@@ -272,23 +272,46 @@ def import_command(
     by: ByOption,
     tz: Annotated[
         str | None,
-        typer.Option("--tz", help="Logger time zone (IANA) for time stamps without one."),
+        typer.Option(
+            "--tz",
+            help="Logger time zone for time stamps without one: IANA name or +hh:mm offset.",
+        ),
     ] = None,
     layout: Annotated[
         str, typer.Option("--layout", help="long, wide or auto (long if it has channel and value).")
     ] = "auto",
-    time_column: Annotated[str, typer.Option("--time-column")] = "time",
+    time_column: Annotated[
+        str | None, typer.Option("--time-column", help="Default: time, date + time, or the first.")
+    ] = None,
     channel_column: Annotated[str, typer.Option("--channel-column")] = "channel",
     value_column: Annotated[str, typer.Option("--value-column")] = "value",
-    delimiter: Annotated[str, typer.Option("--delimiter")] = ",",
-    decimal: Annotated[str, typer.Option("--decimal", help="Decimal mark: . or ,")] = ".",
-    encoding: Annotated[str, typer.Option("--encoding")] = "utf-8",
+    delimiter: Annotated[
+        str, typer.Option("--delimiter", help="auto, one character, tab, \\t, semicolon.")
+    ] = "auto",
+    decimal: Annotated[str, typer.Option("--decimal", help="Decimal mark: auto, . or ,")] = "auto",
+    encoding: Annotated[
+        str, typer.Option("--encoding", help="auto: BOM, UTF-8, else cp1252.")
+    ] = "auto",
     skip_lines: Annotated[
-        int, typer.Option("--skip-lines", help="Lines before the header.", min=0)
-    ] = 0,
+        int | None,
+        typer.Option("--skip-lines", help="Lines before the header (default: found).", min=0),
+    ] = None,
     skip_unmapped: Annotated[
         bool, typer.Option("--skip-unmapped", help="Ignore channels not in --map.")
     ] = False,
+    missing: Annotated[
+        list[str] | None,
+        typer.Option("--missing", help="Another text that marks a missing reading."),
+    ] = None,
+    date_order: Annotated[
+        str | None, typer.Option("--date-order", help="dmy or mdy when the data cannot tell.")
+    ] = None,
+    time_format: Annotated[
+        str | None, typer.Option("--time-format", help="strftime format of the time stamps.")
+    ] = None,
+    start: Annotated[
+        str | None, typer.Option("--start", help="Start time for elapsed-time files.")
+    ] = None,
     campaign: CampaignOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
@@ -312,6 +335,10 @@ def import_command(
         encoding=encoding,
         skip_lines=skip_lines,
         skip_unmapped=skip_unmapped,
+        missing=tuple(missing or ()),
+        date_order=date_order,
+        time_format=time_format,
+        start=start,
     )
     data = read_logger_file(file, [parse_map(m) for m in map_], options)
     from testplan.store import records

@@ -14,6 +14,7 @@ This module never touches the store and never prints.
 
 from __future__ import annotations
 
+import datetime as dt
 import hashlib
 import io
 import re
@@ -33,7 +34,7 @@ if TYPE_CHECKING:  # pragma: no cover
 Layout = Literal["auto", "long", "wide"]
 
 _MAP = re.compile(
-    r"^\s*(?P<source>[^=\[\]]+?)\s*(?:\[(?P<unit>[^\]]*)\])?\s*=\s*(?P<quantity>[A-Za-z_]\w*)"
+    r"^\s*(?P<source>\"[^\"]+\"|'[^']+'|[^=\[\]\"']+?)\s*(?:\[(?P<unit>[^\]]*)\])?\s*=\s*(?P<quantity>[A-Za-z_]\w*)"
     r"\s*(?:@\s*(?P<equipment>[^\s#]+))?\s*(?:\#\s*(?P<specimen>\S+))?\s*$"
 )
 _ZONE = r"(?:[Zz]|[+-]\d\d(?::?\d\d)?)$"
@@ -51,6 +52,7 @@ class ChannelMapping:
     scale: float
     offset: float
     specimen: str | None = None
+    position: int | None = None  # a 1-based column number given instead of a name
 
     @property
     def plan_unit(self) -> str:
@@ -88,13 +90,68 @@ def parse_map(text: str) -> ChannelMapping:
         )
     spec = CHANNELS[quantity]
     unit = (m["unit"] or "").strip()
+    source = m["source"]
+    position = None
+    if source[0] in "\"'":
+        source = source[1:-1]
+    elif source.isdigit():
+        position = int(source)
+        if position < 1:
+            raise LoggerFileError(
+                f"column numbers start at 1 in {text!r}", key="--map", fix="write e.g. '2=...'"
+            )
+    if not unit and spec.unit:
+        # the header or a units row may say; resolved once the file is read
+        return ChannelMapping(
+            source, "", quantity, m["equipment"], float("nan"), 0.0, m["specimen"], position
+        )
     try:
         scale, offset = linear_map(unit, spec.kind, spec.unit, key="--map")
     except QuantityError as err:
         raise LoggerFileError(f"{text!r}: {err.message}", key="--map", fix=err.fix) from err
     return ChannelMapping(
-        m["source"], unit, quantity, m["equipment"], scale, offset, specimen=m["specimen"]
+        source, unit, quantity, m["equipment"], scale, offset, m["specimen"], position
     )
+
+
+def resolve_map(
+    m: ChannelMapping, header: list[str], units_row: list[str], name: str, line: int
+) -> ChannelMapping:
+    """A mapping with its column name (for a column number) and its unit (from the header)."""
+    from dataclasses import replace
+
+    from testplan.importers.dialect import unit_of
+
+    if m.position is not None:
+        if m.position > len(header):
+            raise LoggerFileError(
+                f"no column {m.position} (the header has {len(header)})",
+                file=name,
+                line=line,
+                key="--map",
+            )
+        m = replace(m, source=header[m.position - 1])
+    if m.unit or not CHANNELS[m.quantity].unit:
+        return m
+    where = header.index(m.source) if m.source in header else -1
+    cell = units_row[where] if 0 <= where < len(units_row) else None
+    unit = unit_of(m.source, cell)
+    spec = CHANNELS[m.quantity]
+    if unit is None:
+        raise LoggerFileError(
+            f"no unit for {m.source!r} in the map or the header",
+            file=name,
+            line=line,
+            key="--map",
+            fix=f"give it in the map, e.g. '{m.source}[{spec.unit}]={m.quantity}'",
+        )
+    try:
+        scale, offset = linear_map(unit, spec.kind, spec.unit, key="--map")
+    except QuantityError as err:
+        raise LoggerFileError(
+            f"{m.source!r}: {err.message}", file=name, line=line, key="--map", fix=err.fix
+        ) from err
+    return replace(m, unit=unit, scale=scale, offset=offset)
 
 
 @dataclass
@@ -111,6 +168,7 @@ class LoggerData:
     channel: npt.NDArray[np.int32]
     value: npt.NDArray[np.float64]
     options: dict[str, Any] = field(default_factory=dict)
+    dialect: dict[str, Any] = field(default_factory=dict)
 
     @property
     def count(self) -> int:
@@ -123,14 +181,18 @@ class ReadOptions:
 
     layout: Layout = "auto"
     timezone: str | None = None
-    time_column: str = "time"
+    time_column: str | None = None  # None: "time", else date + time columns, else the first
     channel_column: str = "channel"
     value_column: str = "value"
-    delimiter: str = ","
-    decimal: str = "."
-    encoding: str = "utf-8"
-    skip_lines: int = 0
+    delimiter: str = "auto"
+    decimal: str = "auto"
+    encoding: str = "auto"
+    skip_lines: int | None = None  # None: the header is found among banner lines
     skip_unmapped: bool = False
+    missing: tuple[str, ...] = ()
+    date_order: str | None = None
+    time_format: str | None = None
+    start: str | None = None
 
 
 def read_logger_file(
@@ -156,166 +218,209 @@ def read_logger_bytes(
     import pandas as pd
 
     opt = options or ReadOptions()
-    layout, timezone = opt.layout, opt.timezone
-    time_column, channel_column, value_column = (
-        opt.time_column,
-        opt.channel_column,
-        opt.value_column,
-    )
-    delimiter, decimal, encoding = opt.delimiter, opt.decimal, opt.encoding
-    skip_lines, skip_unmapped = opt.skip_lines, opt.skip_unmapped
+    from testplan.importers.dialect import MISSING_MARKERS, decode, delimiter_option, detect
+
+    layout, skip_unmapped = opt.layout, opt.skip_unmapped
+    channel_column, value_column = opt.channel_column, opt.value_column
     if layout not in ("auto", "long", "wide"):
         raise LoggerFileError(
             f"unknown layout {layout!r}", key="--layout", fix="long, wide or auto"
         )
+    if opt.date_order not in (None, "dmy", "mdy", "ymd"):
+        raise LoggerFileError(
+            f"unknown date order {opt.date_order!r}", key="--date-order", fix="dmy, mdy or ymd"
+        )
     if not maps:
         raise LoggerFileError("no channels mapped", key="--map", fix="give at least one --map")
+    zone = _check_zone(opt.timezone)
+    given_delimiter = delimiter_option(opt.delimiter)
+    text, encoding = decode(content, name, opt.encoding)
+    if not text.strip():
+        raise LoggerFileError("the file is empty", file=name)
+    dialect = detect(text, given_delimiter, opt.skip_lines, encoding)
+    delimiter = dialect.delimiter
+    skip_lines = dialect.skipped_above
+    header_line = skip_lines + 1
+    header = dialect.header
+    maps = [resolve_map(m, header, dialect.units_row, name, header_line) for m in maps]
     sources = [m.source for m in maps]
     dupes = {s for s in sources if sources.count(s) > 1}
     if dupes:
         raise LoggerFileError(f"channel {sorted(dupes)[0]!r} mapped twice", key="--map")
+    decimal = opt.decimal if opt.decimal != "auto" else ("," if delimiter == ";" else ".")
     if delimiter == decimal:
         raise LoggerFileError("the delimiter and the decimal mark are the same", key="--decimal")
-    zone = _check_zone(timezone)
-    header_line = skip_lines + 1
-    text = _decode(content, name, encoding)
-    if not text.strip():
-        raise LoggerFileError("the file is empty", file=name)
-    _first_row_fits(text, delimiter, skip_lines, name)
-    header = _header(text, delimiter, skip_lines)
+    if not opt.skip_lines:
+        _first_row_fits(text, delimiter, skip_lines + dialect.skipped_below, name)
     if layout == "auto":
         layout = "long" if {channel_column, value_column} <= set(header) else "wide"
-    # Numbers are parsed by pandas' C reader; only the empty cell is missing, so a 'nan'
-    # or other text leaves the column as text and is found and named below.
-    dtypes: dict[str, Any] = {c: str for c in header}
-    for c in header:
-        if (layout == "long" and c == value_column) or (
-            layout == "wide" and c in {m.source for m in maps}
-        ):
-            dtypes.pop(c)
-    if layout == "long" and channel_column in dtypes:
-        dtypes[channel_column] = "category"
-
-    def read(types: Any) -> pd.DataFrame:
-        return pd.read_csv(
+    time_columns = _time_columns(opt.time_column, header, name, header_line)
+    markers = [*MISSING_MARKERS, *opt.missing]
+    skip = list(range(skip_lines)) + list(range(header_line, header_line + dialect.skipped_below))
+    try:
+        df = pd.read_csv(
             io.StringIO(text),
             sep=delimiter,
-            decimal=decimal,
-            skiprows=skip_lines,
-            dtype=types,
+            skiprows=skip,
+            dtype=str,
             keep_default_na=False,
-            na_values=[""],
+            na_values=[],
             skip_blank_lines=False,
             skipinitialspace=True,
             index_col=False,
             engine="c",
         )
-
-    try:
-        df = read(dtypes)
     except pd.errors.ParserError as err:
         raise LoggerFileError(_parser_message(err, skip_lines), file=name) from None
     except pd.errors.EmptyDataError:
         raise LoggerFileError("no header line", file=name, line=header_line) from None
-    except (ValueError, TypeError):
-        # A text value in a number column makes pandas refuse the dtype; read all as text.
-        df = read(str)
     df.columns = [str(c).strip() for c in df.columns]
-    if time_column not in df.columns:
-        raise LoggerFileError(
-            f"no {time_column!r} column (columns are: {', '.join(df.columns)})",
-            file=name,
-            line=header_line,
-            fix="name it with --time-column",
-        )
-    blank = df.isna().all(axis=1).to_numpy()
-    if blank.all():
+    # a trailing delimiter gives an unnamed, empty last column
+    df = df.loc[:, [not (c.startswith("Unnamed: ") and df[c].isna().all()) for c in df.columns]]
+    df = df.fillna("")
+    for c in df.columns:
+        df[c] = df[c].str.strip()
+    first_data = header_line + dialect.skipped_below
+    lines = np.arange(len(df)) + first_data + 1  # file line of each data row
+    values_cols = [c for c in df.columns if c not in time_columns]
+    blank = (df == "").all(axis=1).to_numpy()
+    # footers and event rows: no time stamp, or nothing but markers in every reading
+    no_reading = df[values_cols].isin(markers).all(axis=1).to_numpy() if values_cols else blank
+    no_stamp = (df[time_columns[0]] == "").to_numpy()
+    drop = blank | (no_reading & layout_is_wide(layout)) | (no_stamp & no_reading)
+    footers = int(drop.sum() - blank.sum())
+    if drop.all():
         raise LoggerFileError("no data lines", file=name, line=header_line + 1)
-    lines = np.arange(len(df)) + header_line + 1  # file line of each data row
-    if blank.any():
-        keep = ~blank
+    if drop.any():
+        keep = ~drop
         df = df.loc[keep].reset_index(drop=True)
         lines = lines[keep]
     source_lines = _Lines(text)
-    t_us = _times(df[time_column], lines, name, time_column, zone)
+    stamp = df[time_columns[0]]
+    for extra in time_columns[1:]:
+        stamp = stamp + " " + df[extra]
+    zone_text = zone
+    if dialect.zone is not None:
+        if zone is not None and not _same_zone(zone, dialect.zone, stamp.iloc[0]):
+            raise LoggerFileError(
+                f"--tz {zone} contradicts the file's zone {dialect.zone} ({dialect.zone_from})",
+                file=name,
+                key="--tz",
+                fix="leave out --tz, or correct it",
+            )
+        zone_text = zone_text or dialect.zone
+    time_column = " + ".join(time_columns)
+    t_us, time_format = _times(stamp, lines, name, time_column, zone_text, opt)
+    numbers = _NumberReader(decimal, markers, name, source_lines, delimiter, header)
+    numbers.decimal_given = opt.decimal != "auto"
     if layout == "long":
         t, ch, val = _long(
-            df,
-            lines,
-            t_us,
-            maps,
-            name,
-            channel_column,
-            value_column,
-            decimal,
-            skip_unmapped,
-            source_lines,
-            header_line,
+            df, lines, t_us, maps, name, channel_column, value_column, numbers, skip_unmapped
         )
     else:
         t, ch, val = _wide(
-            df,
-            lines,
-            t_us,
-            maps,
-            name,
-            time_column,
-            decimal,
-            skip_unmapped,
-            header_line,
-            source_lines,
+            df, lines, t_us, maps, name, time_columns, numbers, skip_unmapped, header_line
         )
     if len(t) == 0:
         raise LoggerFileError("no readings in the mapped channels", file=name)
+    zone_from = "--tz" if zone else dialect.zone_from if dialect.zone else "each time stamp"
+    found = {
+        "encoding": encoding,
+        "delimiter": delimiter,
+        "decimal": decimal,
+        "thousands": numbers.thousands,
+        "header_line": header_line,
+        "skipped_above": skip_lines,
+        "skipped_below": dialect.skipped_below,
+        "footer_or_event_rows": footers,
+        "time_columns": time_columns,
+        "time_format": time_format,
+        "zone": zone_text or "as written on each time stamp",
+        "zone_from": zone_from if not opt.start or zone_text else "--start",
+        "missing": numbers.missing_counts(maps),
+    }
     return LoggerData(
         name=Path(name).name,
         content=content,
         sha256=hashlib.sha256(content).hexdigest(),
         layout=layout,
-        timezone=zone or "as written in the file",
+        timezone=zone_text or "as written in the file",
         channels=list(maps),
         t_us=t,
         channel=ch,
         value=val,
         options={**asdict(opt), "layout": layout, "maps": [m.shown() for m in maps]},
+        dialect=found,
     )
+
+
+def layout_is_wide(layout: str) -> bool:
+    """Whether a row without readings is an event row (wide) rather than an error (long)."""
+    return layout == "wide"
+
+
+def _time_columns(given: str | None, header: list[str], name: str, line: int) -> list[str]:
+    if given is not None:
+        if given not in header:
+            raise LoggerFileError(
+                f"no {given!r} column (columns are: {', '.join(header)})",
+                file=name,
+                line=line,
+                fix="name it with --time-column",
+            )
+        return [given]
+    if "time" in header:
+        return ["time"]
+    low = [h.lower() for h in header]
+    dates = [i for i, h in enumerate(low) if "date" in h and "time" not in h]
+    times = [i for i, h in enumerate(low) if "time" in h and "date" not in h]
+    if dates and times and times[0] == dates[0] + 1:
+        return [header[dates[0]], header[times[0]]]
+    if not header:
+        raise LoggerFileError("no header line", file=name, line=line)
+    return [header[0]]
+
+
+def _same_zone(tz: str, offset: str, first_stamp: str) -> bool:
+    """Whether ``--tz`` gives the same UTC offset as the file at its first time stamp."""
+    import datetime as dt
+
+    from testplan.importers.stamps import fixed_offset
+
+    fixed = fixed_offset(offset)
+    mine = _zone_object(tz)
+    try:
+        import pandas as pd
+
+        when = pd.Timestamp(first_stamp).to_pydatetime().replace(tzinfo=None)
+    except (ValueError, TypeError):
+        when = dt.datetime(2000, 1, 1)
+    assert fixed is not None
+    return mine.utcoffset(when) == fixed.utcoffset(when)
+
+
+def _zone_object(tz: str) -> dt.tzinfo:
+    from zoneinfo import ZoneInfo
+
+    from testplan.importers.stamps import fixed_offset
+
+    return fixed_offset(tz) or ZoneInfo(tz)
 
 
 def _check_zone(timezone: str | None) -> str | None:
     if timezone is None:
         return None
-    from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+    from zoneinfo import ZoneInfoNotFoundError
 
     try:
-        ZoneInfo(timezone)
+        _zone_object(timezone)
     except (ZoneInfoNotFoundError, ValueError):
         raise LoggerFileError(
             f"unknown time zone {timezone!r}",
             key="--tz",
-            fix="give an IANA name such as 'Europe/London' or 'UTC'",
+            fix="give an IANA name such as 'Europe/London' or a fixed offset such as '+01:00'",
         ) from None
     return timezone
-
-
-def _decode(content: bytes, name: str, encoding: str) -> str:
-    try:
-        text = content.decode(encoding)
-    except LookupError:
-        raise LoggerFileError(f"unknown encoding {encoding!r}", key="--encoding") from None
-    except UnicodeDecodeError as err:
-        line = content[: err.start].count(b"\n") + 1
-        raise LoggerFileError(
-            f"byte {content[err.start]:#04x} is not valid {encoding}",
-            file=name,
-            line=line,
-            fix="give the file's encoding with --encoding, e.g. cp1252",
-        ) from None
-    text = text.removeprefix("\ufeff")
-    if "\r" in text:
-        # Windows (CRLF) and old Mac (CR) line ends: one line end for every reader here,
-        # so line numbers in messages agree with the parser's (the stored bytes are kept).
-        text = text.replace("\r\n", "\n").replace("\r", "\n")
-    return text
 
 
 def _head(text: str, n: int) -> list[str]:
@@ -334,17 +439,6 @@ class _Lines:
         if self._lines is None:
             self._lines = self.text.split("\n")  # as the parser counts lines
         return self._lines[i]
-
-
-def _header(text: str, delimiter: str, skip_lines: int) -> list[str]:
-    import csv
-
-    try:
-        for row in csv.reader(_head(text, skip_lines + 1)[skip_lines:], delimiter=delimiter):
-            return [c.strip() for c in row]
-    except csv.Error:
-        pass  # the parser names the line
-    return []
 
 
 def _first_row_fits(text: str, delimiter: str, skip_lines: int, name: str) -> None:
@@ -378,25 +472,72 @@ def _parser_message(err: Exception, skip_lines: int) -> str:
 
 
 def _times(
-    col: pd.Series[Any], lines: npt.NDArray[Any], name: str, column: str, zone: str | None
-) -> npt.NDArray[np.int64]:
+    raw: pd.Series[Any],
+    lines: npt.NDArray[Any],
+    name: str,
+    column: str,
+    zone: str | None,
+    opt: ReadOptions,
+) -> tuple[npt.NDArray[np.int64], str]:
     import numpy as np
     import pandas as pd
 
-    empty = col.isna().to_numpy()
+    from testplan.importers.stamps import elapsed_us, is_elapsed, parse_local
+
+    empty = (raw == "").to_numpy()
     if empty.any():
         i = int(np.argmax(empty))
         raise LoggerFileError("empty time stamp", file=name, line=int(lines[i]), key=column)
-    raw = col.astype(str)
+    if opt.start is not None or is_elapsed(raw):
+        if opt.start is None:
+            raise LoggerFileError(
+                f"time stamp {raw.iloc[0]!r} is time since the start, not a date and time",
+                file=name,
+                line=int(lines[0]),
+                key=column,
+                fix="give the start with --start, e.g. --start 2027-01-12T09:00:00+01:00",
+            )
+        td, bad = elapsed_us(raw)
+        if bad.any():
+            i = int(np.argmax(bad))
+            raise LoggerFileError(
+                f"cannot read {raw.iloc[i]!r} as time since the start",
+                file=name,
+                line=int(lines[i]),
+                key=column,
+            )
+        start = pd.Timestamp(opt.start)
+        if start.tzinfo is None:
+            if zone is None:
+                raise LoggerFileError(
+                    f"--start {opt.start} has no time zone",
+                    key="--start",
+                    fix="write an offset, e.g. +01:00, or give --tz",
+                )
+            start = start.tz_localize(_zone_object(zone))
+        out = (start.tz_convert("UTC").tz_localize(None) + td).to_numpy()
+        return _as_us(out), "elapsed since --start"
+    if re.match(_STAMP, raw.iloc[0]) is None or opt.time_format or opt.date_order:
+        parsed, fmt = parse_local(raw, lines, name, column, opt.date_order, opt.time_format)
+        if zone is None:
+            raise LoggerFileError(
+                f"time stamp {raw.iloc[0]!r} has no time zone",
+                file=name,
+                line=int(lines[0]),
+                key=column,
+                fix="give the logger's zone with --tz, e.g. --tz Europe/London or --tz +01:00",
+            )
+        return _localized(parsed, raw, lines, name, column, zone), fmt
     zoned = _zoned(raw)
 
     def unreadable(i: int) -> LoggerFileError | None:
         if pd.isna(pd.to_datetime(raw.iloc[i], format="ISO8601", errors="coerce", utc=True)):
             return LoggerFileError(
-                f"cannot read {raw.iloc[i]!r} as an ISO 8601 time stamp",
+                f"cannot read {raw.iloc[i]!r} as a time stamp",
                 file=name,
                 line=int(lines[i]),
                 key=column,
+                fix="give its format with --time-format",
             )
         return None
 
@@ -417,40 +558,72 @@ def _times(
         bad_first = unreadable(0)
         if bad_first is not None:
             raise bad_first
-    if not zoned[0] and zone is None:
-        raise LoggerFileError(
-            f"time stamp {raw.iloc[0]!r} has no time zone",
-            file=name,
-            line=int(lines[0]),
-            key=column,
-            fix="give the logger's zone with --tz, e.g. --tz Europe/London, or write offsets",
-        )
+        raise _no_zone(raw, lines, name, column)
     parsed = pd.to_datetime(raw, format="ISO8601", errors="coerce", utc=bool(zoned[0]))
     bad = parsed.isna().to_numpy()
     if bad.any():
         i = int(np.argmax(bad))
         raise LoggerFileError(
-            f"cannot read {raw.iloc[i]!r} as an ISO 8601 time stamp",
+            f"cannot read {raw.iloc[i]!r} as a time stamp",
             file=name,
             line=int(lines[i]),
             key=column,
+            fix="give its format with --time-format",
         )
-    if not zoned[0]:
-        try:
-            parsed = parsed.dt.tz_localize(zone, ambiguous="raise", nonexistent="raise")
-        except (ValueError, TypeError) as err:  # pytz-style ambiguous/nonexistent errors
-            stamp = str(err).split(":")[-1].strip() if ":" in str(err) else str(err)
-            where = _first_line_of(raw, lines, stamp)
-            raise LoggerFileError(
-                f"time {stamp} does not exist or is ambiguous in {zone} (clock change)",
-                file=name,
-                line=where,
-                key=column,
-                fix="log in UTC or with offsets",
-            ) from None
-        parsed = parsed.dt.tz_convert("UTC")
-    out = parsed.dt.tz_localize(None).dt.as_unit("us").to_numpy().view("int64")
-    return np.asarray(out, dtype=np.int64)
+    if zoned[0]:
+        return _as_us(parsed.dt.tz_localize(None).to_numpy()), "ISO 8601 with zone"
+    return _localized(parsed, raw, lines, name, column, zone), "ISO 8601"
+
+
+def _no_zone(
+    raw: pd.Series[Any], lines: npt.NDArray[Any], name: str, column: str
+) -> LoggerFileError:
+    return LoggerFileError(
+        f"time stamp {raw.iloc[0]!r} has no time zone",
+        file=name,
+        line=int(lines[0]),
+        key=column,
+        fix="give the logger's zone with --tz, e.g. --tz Europe/London or --tz +01:00",
+    )
+
+
+def _as_us(values: Any) -> npt.NDArray[np.int64]:
+    import numpy as np
+
+    return np.asarray(np.asarray(values).astype("datetime64[us]").view("int64"), dtype=np.int64)
+
+
+def _localized(
+    parsed: pd.Series[Any],
+    raw: pd.Series[Any],
+    lines: npt.NDArray[Any],
+    name: str,
+    column: str,
+    zone: str | None,
+) -> npt.NDArray[np.int64]:
+    """Naive lab times in ``zone`` as UTC; a clock-change gap or repeat is refused by line."""
+    import numpy as np
+
+    assert zone is not None
+    try:
+        local = parsed.dt.tz_localize(_zone_object(zone), ambiguous="raise", nonexistent="raise")
+    except (ValueError, TypeError) as err:  # ambiguous/nonexistent errors
+        message = str(err)
+        stamp = message.split(":", 1)[-1].strip() if ":" in message else message
+        m = re.search(r"\d{4}-\d\d-\d\d \d\d:\d\d(?::\d\d)?", message)
+        where = None
+        if m is not None:
+            stamp = m[0]
+            hits = (parsed.dt.strftime("%Y-%m-%d %H:%M:%S").str.startswith(stamp)).to_numpy()
+            where = int(lines[int(np.argmax(hits))]) if hits.any() else None
+        raise LoggerFileError(
+            f"local time {stamp} does not exist or is ambiguous in {zone} (clock change)",
+            file=name,
+            line=where,
+            key=column,
+            fix="log in UTC or with offsets, or give --tz as a fixed offset such as +01:00",
+        ) from None
+    return _as_us(local.dt.tz_convert("UTC").dt.tz_localize(None).to_numpy())
 
 
 def _zoned(raw: pd.Series[Any]) -> npt.NDArray[np.bool_]:
@@ -481,63 +654,74 @@ def _zoned(raw: pd.Series[Any]) -> npt.NDArray[np.bool_]:
     return np.asarray(zoned, dtype=bool)
 
 
-def _first_line_of(raw: pd.Series[Any], lines: npt.NDArray[Any], stamp: str) -> int | None:
-    hits = raw.str.replace("T", " ").str.startswith(stamp.replace("T", " ")[:16]).to_numpy()
-    return int(lines[hits.argmax()]) if hits.any() else None
+class _NumberReader:
+    """Cells to numbers: a decimal comma, a thousands separator found in the data (refused
+    where ambiguous), missing markers skipped and counted, other text named by its line."""
 
+    def __init__(
+        self,
+        decimal: str,
+        markers: list[str],
+        name: str,
+        source_lines: _Lines,
+        delimiter: str,
+        header: list[str],
+    ) -> None:
+        self.decimal, self.markers, self.name = decimal, markers, name
+        self.source_lines, self.delimiter, self.header = source_lines, delimiter, header
+        self.thousands: str | None = None
+        self.decimal_given = True
+        self.missing: dict[str, int] = {}
 
-def _cell(source_lines: _Lines, line: int, column: str, header_line: int) -> str:
-    """The text of one cell as written in the file (for messages)."""
-    import csv
+    def missing_counts(self, maps: list[ChannelMapping]) -> dict[str, int]:
+        """Missing markers skipped, per mapped column."""
+        return {m.source: self.missing.get(m.source, 0) for m in maps}
 
-    try:
-        header = next(csv.reader([source_lines[header_line - 1]]))
-        row = next(csv.reader([source_lines[line - 1]]))
-        return row[[h.strip() for h in header].index(column)].strip()
-    except (IndexError, ValueError, StopIteration, csv.Error):
-        return ""
+    def read(
+        self, col: pd.Series[Any], lines: npt.NDArray[Any], column: str, *, allow_empty: bool
+    ) -> npt.NDArray[np.float64]:
+        """The column's readings as floats; NaN where a missing marker stands."""
+        import numpy as np
+        import pandas as pd
 
-
-def _numbers(
-    col: pd.Series[Any],
-    lines: npt.NDArray[Any],
-    name: str,
-    column: str,
-    decimal: str,
-    *,
-    allow_empty: bool,
-    source_lines: _Lines,
-    header_line: int,
-) -> npt.NDArray[np.float64]:
-    import numpy as np
-    import pandas as pd
-
-    if pd.api.types.is_float_dtype(col.dtype) or pd.api.types.is_integer_dtype(col.dtype):
-        values = col.to_numpy(dtype=float)
-        missing = np.isnan(values)
-        if missing.any():
-            # pandas reads 'nan' text as a number; only a truly empty cell is no reading.
-            idx = np.flatnonzero(missing)
-            texts = [_cell(source_lines, int(lines[i]), column, header_line) for i in idx]
-            empty = np.zeros(len(values), dtype=bool)
-            empty[idx] = [t == "" for t in texts]
-        else:
-            empty = missing
-    else:
-        raw = col.astype(str).str.strip().where(~col.isna(), "")
-        if decimal != ".":
-            raw = raw.str.replace(decimal, ".", regex=False)
-        empty = (raw == "").to_numpy()
-        values = pd.to_numeric(raw.where(~empty, "nan"), errors="coerce").to_numpy(dtype=float)
-    bad = ~np.isfinite(values) & ~empty
-    if not allow_empty:
-        bad |= empty
-    if bad.any():
-        i = int(np.argmax(bad))
-        shown = _cell(source_lines, int(lines[i]), column, header_line)
-        what = "empty value" if empty[i] else f"{shown!r} is not a finite number"
-        raise LoggerFileError(what, file=name, line=int(lines[i]), key=column)
-    return np.asarray(values, dtype=np.float64)
+        raw = col.astype(str).str.strip()
+        empty = raw.isin(self.markers).to_numpy()
+        text = raw.where(~empty, "nan")
+        other = "." if self.decimal == "," else ","
+        has_other = text.str.contains(other, regex=False)
+        if has_other.any():
+            grouping = (
+                r"^[+-]?\d{1,3}(?:"
+                + re.escape(other)
+                + r"\d{3})+(?:"
+                + re.escape(self.decimal)
+                + r"\d*)?$"
+            )
+            wrong = (has_other & ~text.str.match(grouping)).to_numpy()
+            if wrong.any() or not self.decimal_given:
+                i = int(np.argmax(wrong)) if wrong.any() else int(np.argmax(has_other))
+                raise LoggerFileError(
+                    f"{raw.iloc[i]!r}: {other!r} may be a thousands separator or a decimal mark",
+                    file=self.name,
+                    line=int(lines[i]),
+                    key=column,
+                    fix="say which is the decimal mark with --decimal . or --decimal ,",
+                )
+            self.thousands = other
+            text = text.str.replace(other, "", regex=False)
+        if self.decimal != ".":
+            text = text.str.replace(self.decimal, ".", regex=False)
+        values = pd.to_numeric(text, errors="coerce").to_numpy(dtype=float)
+        bad = ~np.isfinite(values) & ~empty
+        if not allow_empty:
+            bad |= empty
+        if bad.any():
+            i = int(np.argmax(bad))
+            what = "empty value" if empty[i] else f"{raw.iloc[i]!r} is not a finite number"
+            fix = None if empty[i] else "if it marks a missing reading, pass --missing TEXT"
+            raise LoggerFileError(what, file=self.name, line=int(lines[i]), key=column, fix=fix)
+        self.missing[column] = self.missing.get(column, 0) + int(empty.sum())
+        return np.asarray(values, dtype=np.float64)
 
 
 def _in_plan_units(
@@ -604,10 +788,8 @@ def _long(
     name: str,
     channel_column: str,
     value_column: str,
-    decimal: str,
+    numbers: _NumberReader,
     skip_unmapped: bool,
-    source_lines: _Lines,
-    header_line: int,
 ) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.int32], npt.NDArray[np.float64]]:
     import numpy as np
     import pandas as pd
@@ -619,7 +801,7 @@ def _long(
                 file=name,
                 line=lines[0] - 1,
             )
-    col = df[channel_column]
+    col = df[channel_column].where(df[channel_column] != "", None)
     if not isinstance(col.dtype, pd.CategoricalDtype):
         col = col.astype("category")
     index = {m.source: i for i, m in enumerate(maps)}
@@ -644,16 +826,7 @@ def _long(
             f"mapped channel {missing[0]!r} has no readings in the file", file=name, key="--map"
         )
     keep = ~unmapped
-    values = _numbers(
-        df[value_column][keep],
-        lines[keep],
-        name,
-        value_column,
-        decimal,
-        allow_empty=False,
-        source_lines=source_lines,
-        header_line=header_line,
-    )
+    values = numbers.read(df[value_column][keep], lines[keep], value_column, allow_empty=False)
     ch = codes[keep].astype(np.int32)
     t = t_us[keep]
     _rising(t, ch, lines[keep], name, df.columns[0], maps)
@@ -666,11 +839,10 @@ def _wide(
     t_us: npt.NDArray[np.int64],
     maps: list[ChannelMapping],
     name: str,
-    time_column: str,
-    decimal: str,
+    time_columns: list[str],
+    numbers: _NumberReader,
     skip_unmapped: bool,
     header_line: int,
-    source_lines: _Lines,
 ) -> tuple[npt.NDArray[np.int64], npt.NDArray[np.int32], npt.NDArray[np.float64]]:
     import numpy as np
 
@@ -682,27 +854,11 @@ def _wide(
                 line=header_line,
                 key="--map",
             )
-    others = [c for c in df.columns if c != time_column and c not in {m.source for m in maps}]
-    if others and not skip_unmapped:
-        raise LoggerFileError(
-            f"column {others[0]!r} is not in the channel map",
-            file=name,
-            line=header_line,
-            fix="map it with --map, or pass --skip-unmapped",
-        )
+    time_column = " + ".join(time_columns)
     n, k = len(df), len(maps)
     block = np.empty((n, k), dtype=np.float64)
     for j, m in enumerate(maps):
-        block[:, j] = _numbers(
-            df[m.source],
-            lines,
-            name,
-            m.source,
-            decimal,
-            allow_empty=True,
-            source_lines=source_lines,
-            header_line=header_line,
-        )
+        block[:, j] = numbers.read(df[m.source], lines, m.source, allow_empty=True)
     dt_ok = np.diff(t_us) > 0
     if not dt_ok.all():
         i = int(np.argmin(dt_ok))

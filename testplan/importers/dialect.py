@@ -1,0 +1,216 @@
+"""How a logger file is written, decided from the file itself: encoding, delimiter, the
+header line among banner lines, units rows under it, and a zone the header states.
+
+Pure functions on bytes and text; no pandas. Every choice is reported back so that
+``record preview`` can show it and ``record import`` can keep it with the raw file.
+"""
+
+from __future__ import annotations
+
+import csv
+import re
+from collections import Counter
+from dataclasses import dataclass
+
+from testplan.errors import LoggerFileError
+
+DELIMITER_WORDS = {"tab": "\t", "\\t": "\t", "comma": ",", "semicolon": ";", "space": " "}
+MISSING_MARKERS = ("", "NA", "NaN", "NAN", "nan", "-", "---", "N/A")
+_HEAD_LINES = 200
+_ZONE_IN_TEXT = re.compile(
+    r"(?<![A-Za-z])(?:(?:UTC|GMT)\s*(?P<sign>[+-])\s*(?P<h>\d{1,2})(?::?(?P<m>\d\d))?"
+    r"|(?P<utc>UTC|GMT)(?![A-Za-z+-]))"
+)
+
+
+@dataclass
+class Dialect:
+    """What was found: everything ``record preview`` shows under ``dialect``."""
+
+    encoding: str
+    delimiter: str
+    header_line: int  # 1-based line of the header
+    skipped_above: int  # banner and metadata lines (and a sep= hint) above the header
+    skipped_below: int  # units or processing rows directly under the header
+    header: list[str]
+    units_row: list[str]
+    zone: str | None = None
+    zone_from: str | None = None
+
+
+def delimiter_option(text: str) -> str | None:
+    """``--delimiter`` as given: a word (``tab``, ``\\t``, ``semicolon``) or one character."""
+    if text in ("", "auto"):
+        return None
+    word = DELIMITER_WORDS.get(text.lower(), text)
+    if len(word) != 1 or word in '"\r\n':
+        raise LoggerFileError(
+            f"cannot use {text!r} as the delimiter",
+            key="--delimiter",
+            fix="give one character, or tab, comma, semicolon or space",
+        )
+    return word
+
+
+def decode(content: bytes, name: str, encoding: str) -> tuple[str, str]:
+    """The file's text with one line end, and the encoding used (found when ``auto``)."""
+    if encoding == "auto":
+        if content.startswith((b"\xff\xfe", b"\xfe\xff")):
+            encoding = "utf-16"
+        elif content.startswith(b"\xef\xbb\xbf"):
+            encoding = "utf-8-sig"
+        else:
+            try:
+                content.decode("utf-8")
+                encoding = "utf-8"
+            except UnicodeDecodeError:
+                encoding = "cp1252"
+                try:
+                    content.decode("cp1252")
+                except UnicodeDecodeError:
+                    encoding = "latin-1"
+    try:
+        text = content.decode(encoding)
+    except LookupError:
+        raise LoggerFileError(f"unknown encoding {encoding!r}", key="--encoding") from None
+    except UnicodeDecodeError as err:
+        line = content[: err.start].count(b"\n") + 1
+        raise LoggerFileError(
+            f"byte {content[err.start]:#04x} is not valid {encoding}",
+            file=name,
+            line=line,
+            fix="give the file's encoding with --encoding, e.g. cp1252",
+        ) from None
+    text = text.removeprefix("\ufeff")
+    if "\r" in text:
+        # One line end for every reader here, so line numbers in messages agree with
+        # the parser's (the stored bytes are kept as received).
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+    return text, encoding
+
+
+def _fields(line: str, delimiter: str) -> list[str]:
+    try:
+        row = next(csv.reader([line], delimiter=delimiter), [])
+    except csv.Error:
+        return [line]
+    while row and not row[-1].strip():
+        row.pop()  # trailing delimiters
+    return [c.strip() for c in row]
+
+
+def _numberish(cell: str) -> bool:
+    return bool(re.match(r"^[+-]?[\d.,: /-]+(?:[ T]?\d.*)?$", cell.strip())) and any(
+        ch.isdigit() for ch in cell
+    )
+
+
+def detect(
+    text: str,
+    delimiter: str | None,
+    skip_lines: int | None,
+    encoding: str,
+    timezone_hint: bool = False,
+) -> Dialect:
+    """Find the delimiter, the header among banner lines and the units rows below it."""
+    head = text.split("\n", _HEAD_LINES)[:_HEAD_LINES]
+    hint = 0
+    if head and re.match(r"^\s*\"?sep=(.)\"?\s*$", head[0]):
+        if delimiter is None:
+            delimiter = re.match(r"^\s*\"?sep=(.)", head[0])[1]  # type: ignore[index]
+        hint = 1
+    body = [ln for ln in head[hint:] if ln.strip()]
+    if delimiter is None:
+        delimiter = _guess_delimiter(body)
+    widths = [len(_fields(ln, delimiter)) for ln in head]
+    if skip_lines is None:
+        data_width = Counter(w for w in widths[hint:] if w > 1).most_common(1)
+        width = data_width[0][0] if data_width else 1
+        skip_lines = next(
+            (i for i in range(hint, len(head)) if widths[i] >= width and head[i].strip()), hint
+        )
+    header = _fields(head[skip_lines], delimiter) if skip_lines < len(head) else []
+    below = 0
+    units_row: list[str] = []
+    for ln in head[skip_lines + 1 :]:
+        cells = _fields(ln, delimiter)
+        if not cells or not ln.strip() or _numberish(cells[0]):
+            break
+        if not units_row:
+            units_row = cells
+        below += 1
+    zone, zone_from = None, None
+    for i, ln in enumerate(head[: skip_lines + 1]):
+        z = zone_in(ln)
+        if z is not None:
+            zone, zone_from = z, f"line {i + 1}: {ln.strip()[:60]}"
+            break
+    return Dialect(
+        encoding=encoding,
+        delimiter=delimiter,
+        header_line=skip_lines + 1,
+        skipped_above=skip_lines,
+        skipped_below=below,
+        header=header,
+        units_row=units_row,
+        zone=zone,
+        zone_from=zone_from,
+    )
+
+
+def zone_in(text: str) -> str | None:
+    """A zone written in a header or banner line (``GMT+01:00``, ``UTC``) as ``+hh:mm``."""
+    m = _ZONE_IN_TEXT.search(text)
+    if m is None:
+        return None
+    if m["utc"]:
+        return "+00:00"
+    return f"{m['sign']}{int(m['h']):02d}:{m['m'] or '00'}"
+
+
+def _guess_delimiter(lines: list[str]) -> str:
+    sample = "\n".join(lines[-50:])
+    try:
+        return csv.Sniffer().sniff(sample, delimiters=",;\t|").delimiter
+    except csv.Error:
+        counts = {d: sample.count(d) for d in (";", "\t", ",")}
+        best = max(counts, key=lambda d: counts[d])
+        return best if counts[best] else ","
+
+
+UNIT_WORDS = {
+    "°c": "degC",
+    "c": "degC",
+    "degc": "degC",
+    "°f": "degF",
+    "f": "degF",
+    "degf": "degF",
+    "%": "percent",
+    "%rh": "percent",
+    "rh%": "percent",
+    "kpa": "kPa",
+    "hpa": "hPa",
+    "pa": "Pa",
+    "mbar": "mbar",
+    "bar": "bar",
+    "psi": "psi",
+    "m": "m",
+    "cm": "cm",
+    "mm": "mm",
+    "v": "V",
+    "n·m": "N*m",
+    "nm": "N*m",
+}
+_UNIT_IN_HEADER = re.compile(r"[\[(]\s*([^\])]+?)\s*[\])]\s*$")
+
+
+def unit_of(header: str, units_row_cell: str | None) -> str | None:
+    """The unit a header (``Temp [°C]``, ``RH(%)``) or its units-row cell states."""
+    for text in (units_row_cell, header):
+        if not text:
+            continue
+        m = _UNIT_IN_HEADER.search(text)
+        word = (m[1] if m else text).strip().lower()
+        if word in UNIT_WORDS:
+            return UNIT_WORDS[word]
+    return None
