@@ -247,7 +247,10 @@ def read_logger_bytes(
     dupes = {s for s in sources if sources.count(s) > 1}
     if dupes:
         raise LoggerFileError(f"channel {sorted(dupes)[0]!r} mapped twice", key="--map")
-    decimal = opt.decimal if opt.decimal != "auto" else ("," if delimiter == ";" else ".")
+    decimal = opt.decimal
+    if decimal == "auto":
+        sample = "\n".join(text.split("\n", 60)[header_line:60])
+        decimal = "," if delimiter != "," and re.search(r"\d,\d", sample) else "."
     if delimiter == decimal:
         raise LoggerFileError("the delimiter and the decimal mark are the same", key="--decimal")
     if not opt.skip_lines:
@@ -338,6 +341,14 @@ def read_logger_bytes(
         "zone": zone_text or "as written on each time stamp",
         "zone_from": zone_from if not opt.start or zone_text else "--start",
         "missing": numbers.missing_counts(maps),
+        "columns": {
+            m.source: header.index(m.source if layout == "wide" else value_column) + 1
+            for m in maps
+            if (m.source if layout == "wide" else value_column) in header
+        },
+        "unmapped": [c for c in header if c and c not in time_columns and c not in sources]
+        if layout == "wide"
+        else [],
     }
     return LoggerData(
         name=Path(name).name,
@@ -376,6 +387,9 @@ def _time_columns(given: str | None, header: list[str], name: str, line: int) ->
     times = [i for i, h in enumerate(low) if "time" in h and "date" not in h]
     if dates and times and times[0] == dates[0] + 1:
         return [header[dates[0]], header[times[0]]]
+    for i, h in enumerate(low):
+        if any(word in h for word in ("time", "date", "zeit", "datum", "stamp")):
+            return [header[i]]
     if not header:
         raise LoggerFileError("no header line", file=name, line=line)
     return [header[0]]
@@ -517,7 +531,8 @@ def _times(
             start = start.tz_localize(_zone_object(zone))
         out = (start.tz_convert("UTC").tz_localize(None) + td).to_numpy()
         return _as_us(out), "elapsed since --start"
-    if re.match(_STAMP, raw.iloc[0]) is None or opt.time_format or opt.date_order:
+    late_midnight = raw.str.contains(r"[ T]24:00", regex=True).any()
+    if re.match(_STAMP, raw.iloc[0]) is None or opt.time_format or opt.date_order or late_midnight:
         parsed, fmt = parse_local(raw, lines, name, column, opt.date_order, opt.time_format)
         if zone is None:
             raise LoggerFileError(
@@ -673,6 +688,16 @@ class _NumberReader:
         self.decimal_given = True
         self.missing: dict[str, int] = {}
 
+    def ambiguous(self, cell: str, mark: str, line: int, column: str) -> LoggerFileError:
+        """The refusal of a cell whose ``mark`` may group thousands or be the decimal mark."""
+        return LoggerFileError(
+            f"{cell!r}: {mark!r} may be a thousands separator or a decimal mark",
+            file=self.name,
+            line=line,
+            key=column,
+            fix="say which is the decimal mark with --decimal . or --decimal ,",
+        )
+
     def missing_counts(self, maps: list[ChannelMapping]) -> dict[str, int]:
         """Missing markers skipped, per mapped column."""
         return {m.source: self.missing.get(m.source, 0) for m in maps}
@@ -687,6 +712,12 @@ class _NumberReader:
         raw = col.astype(str).str.strip()
         empty = raw.isin(self.markers).to_numpy()
         text = raw.where(~empty, "nan")
+        if not self.decimal_given and self.decimal == "." and self.delimiter == ";":
+            # a semicolon file often writes a decimal comma: '1.013' may mean 1013
+            dotted = text.str.contains(".", regex=False)
+            if dotted.any() and text[dotted].str.match(r"^[+-]?\d{1,3}(?:\.\d{3})+$").all():
+                i = int(np.argmax(dotted.to_numpy()))
+                raise self.ambiguous(raw.iloc[i], ".", int(lines[i]), column)
         other = "." if self.decimal == "," else ","
         has_other = text.str.contains(other, regex=False)
         if has_other.any():
@@ -698,15 +729,10 @@ class _NumberReader:
                 + r"\d*)?$"
             )
             wrong = (has_other & ~text.str.match(grouping)).to_numpy()
-            if wrong.any() or not self.decimal_given:
+            unsure = not self.decimal_given and not text.str.contains(self.decimal).any()
+            if wrong.any() or unsure:
                 i = int(np.argmax(wrong)) if wrong.any() else int(np.argmax(has_other))
-                raise LoggerFileError(
-                    f"{raw.iloc[i]!r}: {other!r} may be a thousands separator or a decimal mark",
-                    file=self.name,
-                    line=int(lines[i]),
-                    key=column,
-                    fix="say which is the decimal mark with --decimal . or --decimal ,",
-                )
+                raise self.ambiguous(raw.iloc[i], other, int(lines[i]), column)
             self.thousands = other
             text = text.str.replace(other, "", regex=False)
         if self.decimal != ".":
@@ -876,3 +902,45 @@ def _wide(
     ch = np.tile(np.arange(k, dtype=np.int32), n)[present]
     row_lines = np.repeat(lines, k)[present]
     return t, ch, _in_plan_units(flat[present], ch, row_lines, maps, name, None)
+
+
+def preview(data: LoggerData) -> dict[str, Any]:
+    """What ``record preview --json`` prints: per channel its column, unit, count, first and
+    last reading (UTC) and min/max in plan units; the dialect found; warnings."""
+    import numpy as np
+
+    def stamp(us: int) -> str:
+        return dt.datetime.fromtimestamp(us / 1e6, dt.UTC).isoformat().replace("+00:00", "Z")
+
+    channels = []
+    for i, m in enumerate(data.channels):
+        mine = np.flatnonzero(data.channel == i)
+        first, last = (int(mine[0]), int(mine[-1])) if len(mine) else (None, None)
+        channels.append(
+            {
+                "column": data.dialect.get("columns", {}).get(m.source),
+                "source": m.source,
+                "quantity": m.quantity,
+                "unit": m.plan_unit,
+                "source_unit": m.unit,
+                "count": len(mine),
+                "first": None
+                if first is None
+                else {"time": stamp(int(data.t_us[first])), "value": float(data.value[first])},
+                "last": None
+                if last is None
+                else {"time": stamp(int(data.t_us[last])), "value": float(data.value[last])},
+                "min": float(data.value[mine].min()) if len(mine) else None,
+                "max": float(data.value[mine].max()) if len(mine) else None,
+            }
+        )
+    warnings = []
+    for source, n in data.dialect.get("missing", {}).items():
+        if n:
+            warnings.append(f"{source}: {n} missing readings skipped")
+    if data.dialect.get("footer_or_event_rows"):
+        n = data.dialect["footer_or_event_rows"]
+        warnings.append(f"{n} footer or event rows without readings skipped")
+    for c in data.dialect.get("unmapped", []):
+        warnings.append(f"column {c!r} is not mapped and was not read")
+    return {"channels": channels, "dialect": data.dialect, "warnings": warnings}

@@ -3,9 +3,12 @@
 from __future__ import annotations
 
 import hashlib
+import json
 from pathlib import Path
 
 import pytest
+
+from tests.importers.cases import CASES
 
 from .conftest import START, Bench
 
@@ -359,3 +362,52 @@ def test_channels_can_name_the_specimen_they_measure(bench: Bench) -> None:
         "error: --map: specimen 'QC-2027-014-S05' is not on run water-8@ip-verification-1 "
         "(it has QC-2027-014-S01, QC-2027-014-S02)"
     )
+
+
+def _us(instant: str) -> int:
+    import datetime as dt
+
+    return int(dt.datetime.fromisoformat(instant.replace("Z", "+00:00")).timestamp() * 1e6)
+
+
+@pytest.mark.parametrize(("name", "options", "quantity", "expected", "facts"), CASES)
+def test_each_dialect_is_imported_as_previewed(
+    running: Bench,
+    name: str,
+    options: list[str],
+    quantity: str,
+    expected: list[tuple[str, float]],
+    facts: dict[str, object],
+) -> None:
+    path = DATA / name
+    running("record", "import", RUN, str(path), *options, "--by", "AK")
+    got = [(t, v) for q, t, v in running.samples() if q == quantity]
+    assert [t for t, _ in got] == [_us(t) for t, _ in expected]
+    # common practice (no source): the conversions are worked by hand in tests/importers/cases.py
+    assert [v for _, v in got] == pytest.approx([v for _, v in expected])
+    [(content, options_json)] = running.sql("SELECT content, read_options_json FROM raw_file")
+    assert bytes(content) == path.read_bytes()  # as received, never a converted copy
+    kept = json.loads(options_json)
+    for key, value in facts.items():
+        assert kept["dialect"][key] == value, key
+
+
+def test_the_same_file_twice_is_refused_naming_the_earlier_import(running: Bench) -> None:
+    path = DATA / "trailing.csv"
+    args = ("record", "import", RUN, str(path), "--map", "2=ambient_temperature", "--by", "AK")
+    running(*args)
+    [(raw_id, at)] = running.sql("SELECT id, imported_at FROM raw_file")
+    audit_before = running.sql("SELECT count(*) FROM audit")
+    line = running.fail(*args)
+    sha = hashlib.sha256(path.read_bytes()).hexdigest()
+    import datetime as dt
+    import uuid
+
+    when = at if isinstance(at, dt.datetime) else dt.datetime.fromisoformat(str(at))
+    assert line == (
+        f"error: FILE: trailing.csv (sha256 {sha[:16]}) is already imported into run {RUN}: "
+        f"import {uuid.UUID(str(raw_id))} of {when:%Y-%m-%d %H:%M:%S}Z (trailing.csv) (the same "
+        "bytes are stored once per run)"
+    )
+    assert running.sql("SELECT count(*) FROM raw_file") == [(1,)]
+    assert running.sql("SELECT count(*) FROM audit") == audit_before
