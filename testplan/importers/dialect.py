@@ -110,7 +110,7 @@ def detect(
     delimiter: str | None,
     skip_lines: int | None,
     encoding: str,
-    timezone_hint: bool = False,
+    names: tuple[str, ...] = (),
 ) -> Dialect:
     """Find the delimiter, the header among banner lines and the units rows below it."""
     head = text.split("\n", _HEAD_LINES)[:_HEAD_LINES]
@@ -124,7 +124,15 @@ def detect(
         delimiter = _guess_delimiter(body)
     widths = [len(_fields(ln, delimiter)) for ln in head]
     if skip_lines is None:
-        skip_lines = _find_header(head, widths, hint, delimiter)
+        named = next(
+            (
+                i
+                for i in range(hint, len(head))
+                if names and set(names) <= set(_fields(head[i], delimiter))
+            ),
+            None,
+        )
+        skip_lines = named if named is not None else _find_header(head, widths, hint, delimiter)
     header = _fields(head[skip_lines], delimiter) if skip_lines < len(head) else []
     below = 0
     units_row: list[str] = []

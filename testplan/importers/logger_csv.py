@@ -237,7 +237,19 @@ def read_logger_bytes(
     text, encoding = decode(content, name, opt.encoding)
     if not text.strip():
         raise LoggerFileError("the file is empty", file=name)
-    dialect = detect(text, given_delimiter, opt.skip_lines, encoding)
+    named = tuple(m.source for m in maps if m.position is None)
+    long_names: tuple[str, ...]
+    if opt.layout == "long" or (
+        opt.layout == "auto" and {opt.channel_column, opt.value_column} & set(named) == set()
+    ):
+        long_names = (opt.time_column or "time", opt.channel_column, opt.value_column)
+    else:
+        long_names = ()
+    dialect = detect(text, given_delimiter, opt.skip_lines, encoding, named)
+    if long_names and not set(long_names) <= set(dialect.header):
+        again = detect(text, given_delimiter, opt.skip_lines, encoding, long_names)
+        if set(long_names) <= set(again.header):
+            dialect = again
     delimiter = dialect.delimiter
     skip_lines = dialect.skipped_above
     header_line = skip_lines + 1
@@ -285,6 +297,14 @@ def read_logger_bytes(
         df[c] = df[c].str.strip()
     first_data = header_line + dialect.skipped_below
     lines = np.arange(len(df)) + first_data + 1  # file line of each data row
+    absent = [c for c in time_columns if c not in df.columns]
+    if absent:
+        raise LoggerFileError(
+            f"no {absent[0]!r} column (columns are: {', '.join(df.columns)})",
+            file=name,
+            line=header_line,
+            fix="name it with --time-column",
+        )
     values_cols = [c for c in df.columns if c not in time_columns]
     blank = (df == "").all(axis=1).to_numpy()
     # footers and event rows: no time stamp, or nothing but markers in every reading
