@@ -364,8 +364,36 @@ def import_command(
     typer.echo(
         f"{run}: imported {raw.samples} samples from {raw.name} "
         f"({raw.first_at:%Y-%m-%d %H:%M:%SZ} to {raw.last_at:%Y-%m-%d %H:%M:%SZ}), "
-        f"sha256 {raw.sha256[:16]}"
+        f"sha256 {raw.sha256[:16]}, import {raw.id}"
     )
+
+
+@app.command("withdraw")
+@reports_errors
+def withdraw_command(
+    run: RunArg,
+    import_id: Annotated[str, typer.Argument(metavar="IMPORT", help="Import id from import.")],
+    why: Annotated[str, typer.Option("--why", help="Why the import is withdrawn.")],
+    by: ByOption,
+    campaign: CampaignOption = None,
+    db: DbOption = None,
+    quiet: QuietOption = False,
+) -> None:
+    """Withdraw a wrong import until the run's data check: it stays stored and audited,
+    marked withdrawn, and judging ignores it.
+
+    Example: testplan record withdraw water-8@aged-1 3f2c... --why "wrong logger file" --by AK
+    """
+    from testplan.store import imports, records
+
+    store = open_for_writing(db, quiet=quiet)
+
+    def unit(session: Session) -> str:
+        row = records.find_run(session, run, campaign=campaign)
+        return imports.withdraw_import(session, run=row, import_id=import_id, why=why, by=by).name
+
+    name = store.write(unit)
+    typer.echo(f"{run}: import {import_id} ({name}) withdrawn")
 
 
 @app.command("preview", epilog="Quantities (plan unit): " + CHANNEL_LIST)

@@ -70,7 +70,11 @@ def import_logger_data(
             equipment_id, calibration_id = item.id, cal.id
         channel_rows.append((number, m, equipment_id, calibration_id, specimen_id))
     earlier = session.exec(
-        select(RawFile).where(RawFile.run_id == run.id, RawFile.sha256 == data.sha256)
+        select(RawFile).where(
+            RawFile.run_id == run.id,
+            RawFile.sha256 == data.sha256,
+            col(RawFile.withdrawn_at).is_(None),
+        )
     ).first()
     if earlier is not None:
         raise RecordError(
@@ -133,5 +137,55 @@ def import_logger_data(
             "channels": [m.shown() for m in data.channels],
             "tool_version": __version__,
         },
+    )
+    return raw
+
+
+def withdraw_import(
+    session: Session, *, run: RunRecord, import_id: str, why: str, by: str
+) -> RawFile:
+    """Mark an import withdrawn (until the run's data check): kept, audited, not judged."""
+    import uuid
+
+    _open(session, run.campaign_id)
+    person = require_role(session, by, "operator")
+    if run.checked_at is not None:
+        raise RecordError(
+            f"run {run.key} has had its data check; its imports can no longer be withdrawn",
+            key="IMPORT",
+            fix="record a deviation instead",
+        )
+    if not why.strip():
+        raise RecordError("say why the import is withdrawn", key="--why")
+    try:
+        wanted = uuid.UUID(import_id)
+    except ValueError:
+        wanted = None
+    raw = session.get(RawFile, wanted) if wanted else None
+    if raw is None or raw.run_id != run.id:
+        raise RecordError(
+            f"no import {import_id!r} on run {run.key}",
+            key="IMPORT",
+            fix="give the import id that `record import` printed",
+        )
+    if raw.withdrawn_at is not None:
+        raise RecordError(
+            f"import {raw.id} was already withdrawn by {raw.withdrawn_by}", key="IMPORT"
+        )
+    raw.withdrawn_at = dt.datetime.now(dt.UTC)
+    raw.withdrawn_by = person.initials
+    raw.withdrawn_why = why
+    session.add(raw)
+    session.flush()
+    audit.append(
+        session,
+        actor=person.initials,
+        action="data.withdraw",
+        entity="raw_file",
+        entity_id=raw.id,
+        campaign_id=run.campaign_id,
+        why=why,
+        old={"withdrawn": False},
+        new={"withdrawn": True, "run": run.key, "name": raw.name, "sha256": raw.sha256},
     )
     return raw

@@ -411,3 +411,51 @@ def test_the_same_file_twice_is_refused_naming_the_earlier_import(running: Bench
     )
     assert running.sql("SELECT count(*) FROM raw_file") == [(1,)]
     assert running.sql("SELECT count(*) FROM audit") == audit_before
+
+
+def test_a_withdrawn_import_stays_stored_and_audited_but_is_not_judged(running: Bench) -> None:
+    import sqlalchemy as sa
+    from sqlmodel import Session, select
+
+    from testplan.store.judging import _series
+    from testplan.store.tables import RunRecord
+
+    path = DATA / "tank-long.csv"
+    out = running("record", "import", RUN, str(path), "--map", LEVEL, "--map", WATER, "--by", "AK")
+    import_id = out.stdout.strip().rsplit("import ", 1)[1]
+    assert running.fail("record", "withdraw", RUN, "nope", "--why", "x", "--by", "AK") == (
+        f"error: IMPORT: no import 'nope' on run {RUN} (give the import id that `record import` "
+        "printed)"
+    )
+    running("record", "withdraw", RUN, import_id, "--why", "wrong tank logger", "--by", "AK")
+    [(name, by, why, at)] = running.sql(
+        "SELECT name, withdrawn_by, withdrawn_why, withdrawn_at FROM raw_file"
+    )
+    assert (name, by, why) == ("tank-long.csv", "AK", "wrong tank logger") and at is not None
+    assert running.sql("SELECT count(*) FROM sample_block") == [(1,)]  # samples kept
+    assert running.sql("SELECT why FROM audit WHERE action = 'data.withdraw'") == [
+        ("wrong tank logger",)
+    ]
+    line = running.fail("record", "withdraw", RUN, import_id, "--why", "again", "--by", "AK")
+    assert line == f"error: IMPORT: import {import_id} was already withdrawn by AK"
+    engine = sa.create_engine(running.url)
+    with Session(engine) as session:
+        run = session.exec(select(RunRecord).where(RunRecord.key == RUN)).one()
+        assert _series(session, run) == []  # judging sees no samples from it
+    engine.dispose()
+    # withdrawn, it no longer blocks the same file from being imported again correctly
+    running("record", "import", RUN, str(path), "--map", LEVEL, "--map", WATER, "--by", "AK")
+
+
+def test_an_import_cannot_be_withdrawn_after_the_data_check(running: Bench) -> None:
+    path = DATA / "tank-long.csv"
+    out = running("record", "import", RUN, str(path), "--map", LEVEL, "--map", WATER, "--by", "AK")
+    import_id = out.stdout.strip().rsplit("import ", 1)[1]
+    running("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
+    running("record", "check", RUN, "--by", "MO", "--at", "2027-01-16T09:00Z", "--quiet")
+    line = running.fail("record", "withdraw", RUN, import_id, "--why", "late", "--by", "AK")
+    assert line == (
+        f"error: IMPORT: run {RUN} has had its data check; its imports can no longer be "
+        "withdrawn (record a deviation instead)"
+    )
+    assert running.sql("SELECT count(*) FROM raw_file WHERE withdrawn_at IS NULL") == [(1,)]
