@@ -272,19 +272,32 @@ def read_logger_bytes(
     time_columns = _time_columns(opt.time_column, header, name, header_line)
     markers = [*MISSING_MARKERS, *opt.missing]
     skip = list(range(skip_lines)) + list(range(header_line, header_line + dialect.skipped_below))
-    try:
-        df = pd.read_csv(
+
+    # Numbers are parsed by pandas' C reader where a column holds only numbers and markers;
+    # a column with other text comes back as text and is read (or named) by _NumberReader.
+    def read(types: Any) -> pd.DataFrame:
+        return pd.read_csv(
             io.StringIO(text),
             sep=delimiter,
+            decimal=decimal,
             skiprows=skip,
-            dtype=str,
+            dtype=types,
             keep_default_na=False,
-            na_values=[],
+            na_values=markers,
             skip_blank_lines=False,
             skipinitialspace=True,
             index_col=False,
             engine="c",
         )
+
+    text_columns: Any = {c: str for c in header if c in time_columns or c == channel_column}
+    if opt.decimal == "auto" and decimal == "." and delimiter == ";":
+        text_columns = str  # '1.013' may group thousands: _NumberReader decides from the text
+    try:
+        try:
+            df = read(text_columns)
+        except (ValueError, TypeError):
+            df = read(str)
     except pd.errors.ParserError as err:
         raise LoggerFileError(_parser_message(err, skip_lines), file=name) from None
     except pd.errors.EmptyDataError:
@@ -292,9 +305,6 @@ def read_logger_bytes(
     df.columns = [str(c).strip() for c in df.columns]
     # a trailing delimiter gives an unnamed, empty last column
     df = df.loc[:, [not (c.startswith("Unnamed: ") and df[c].isna().all()) for c in df.columns]]
-    df = df.fillna("")
-    for c in df.columns:
-        df[c] = df[c].str.strip()
     first_data = header_line + dialect.skipped_below
     lines = np.arange(len(df)) + first_data + 1  # file line of each data row
     absent = [c for c in time_columns if c not in df.columns]
@@ -306,10 +316,10 @@ def read_logger_bytes(
             fix="name it with --time-column",
         )
     values_cols = [c for c in df.columns if c not in time_columns]
-    blank = (df == "").all(axis=1).to_numpy()
+    blank = df.isna().all(axis=1).to_numpy()
     # footers and event rows: no time stamp, or nothing but markers in every reading
-    no_reading = df[values_cols].isin(markers).all(axis=1).to_numpy() if values_cols else blank
-    no_stamp = (df[time_columns[0]] == "").to_numpy()
+    no_reading = df[values_cols].isna().all(axis=1).to_numpy() if values_cols else blank
+    no_stamp = df[time_columns[0]].isna().to_numpy()
     drop = blank | (no_reading & layout_is_wide(layout)) | (no_stamp & no_reading)
     footers = int(drop.sum() - blank.sum())
     if drop.all():
@@ -318,6 +328,8 @@ def read_logger_bytes(
         keep = ~drop
         df = df.loc[keep].reset_index(drop=True)
         lines = lines[keep]
+    for c in time_columns:
+        df[c] = df[c].fillna("").astype(str).str.strip()
     source_lines = _Lines(text)
     stamp = df[time_columns[0]]
     for extra in time_columns[1:]:
@@ -468,6 +480,16 @@ class _Lines:
     def __init__(self, text: str) -> None:
         self.text = text
         self._lines: list[str] | None = None
+
+    def cell(self, line: int, column: str, delimiter: str, header: list[str]) -> str:
+        """The text of one cell as written in the file (for messages)."""
+        import csv
+
+        try:
+            row = next(csv.reader([self[line - 1]], delimiter=delimiter))
+            return row[header.index(column)].strip()
+        except (IndexError, ValueError, StopIteration, csv.Error):
+            return ""
 
     def __getitem__(self, i: int) -> str:
         if self._lines is None:
@@ -729,7 +751,11 @@ class _NumberReader:
         import numpy as np
         import pandas as pd
 
-        raw = col.astype(str).str.strip()
+        if pd.api.types.is_float_dtype(col.dtype) or pd.api.types.is_integer_dtype(col.dtype):
+            values = col.to_numpy(dtype=float)
+            empty = np.isnan(values)
+            return self._checked(values, empty, col, lines, column, allow_empty)
+        raw = col.fillna("").astype(str).str.strip()
         empty = raw.isin(self.markers).to_numpy()
         text = raw.where(~empty, "nan")
         if not self.decimal_given and self.decimal == "." and self.delimiter == ";":
@@ -758,12 +784,28 @@ class _NumberReader:
         if self.decimal != ".":
             text = text.str.replace(self.decimal, ".", regex=False)
         values = pd.to_numeric(text, errors="coerce").to_numpy(dtype=float)
+        return self._checked(values, empty, raw, lines, column, allow_empty)
+
+    def _checked(
+        self,
+        values: npt.NDArray[np.float64],
+        empty: npt.NDArray[np.bool_],
+        raw: pd.Series[Any],
+        lines: npt.NDArray[Any],
+        column: str,
+        allow_empty: bool,
+    ) -> npt.NDArray[np.float64]:
+        import numpy as np
+
         bad = ~np.isfinite(values) & ~empty
         if not allow_empty:
             bad |= empty
         if bad.any():
             i = int(np.argmax(bad))
-            what = "empty value" if empty[i] else f"{raw.iloc[i]!r} is not a finite number"
+            shown = str(raw.iloc[i]).strip()
+            if not isinstance(raw.iloc[i], str):
+                shown = self.source_lines.cell(int(lines[i]), column, self.delimiter, self.header)
+            what = "empty value" if empty[i] else f"{shown!r} is not a finite number"
             fix = None if empty[i] else "if it marks a missing reading, pass --missing TEXT"
             raise LoggerFileError(what, file=self.name, line=int(lines[i]), key=column, fix=fix)
         self.missing[column] = self.missing.get(column, 0) + int(empty.sum())
