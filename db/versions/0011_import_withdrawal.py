@@ -17,14 +17,14 @@ depends_on = None
 
 
 def upgrade() -> None:
-    with op.batch_alter_table("raw_file") as batch:
-        batch.add_column(sa.Column("withdrawn_at", sa.DateTime(timezone=True), nullable=True))
-        batch.add_column(sa.Column("withdrawn_by", sa.String(), nullable=True))
-        batch.add_column(sa.Column("withdrawn_why", sa.String(), nullable=True))
+    # plain ADD COLUMN (nullable): SQLite keeps the table, so rows referring to it stay valid
+    op.add_column("raw_file", sa.Column("withdrawn_at", sa.DateTime(timezone=True), nullable=True))
+    op.add_column("raw_file", sa.Column("withdrawn_by", sa.String(), nullable=True))
+    op.add_column("raw_file", sa.Column("withdrawn_why", sa.String(), nullable=True))
 
 
 def downgrade() -> None:
-    with op.batch_alter_table("raw_file") as batch:
-        batch.drop_column("withdrawn_why")
-        batch.drop_column("withdrawn_by")
-        batch.drop_column("withdrawn_at")
+    # ALTER TABLE ... DROP COLUMN (SQLite 3.35+): the table is kept, so foreign keys hold
+    op.drop_column("raw_file", "withdrawn_why")
+    op.drop_column("raw_file", "withdrawn_by")
+    op.drop_column("raw_file", "withdrawn_at")

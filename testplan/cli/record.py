@@ -323,6 +323,13 @@ def import_command(
     file: Annotated[Path, typer.Argument(help="Logger CSV file, long or wide.")],
     map_: MapOption,
     by: ByOption,
+    outside_run: Annotated[
+        str | None,
+        typer.Option(
+            "--outside-run",
+            help="keep or drop readings before the run's start or after its finish.",
+        ),
+    ] = None,
     tz: TzRead = None,
     layout: LayoutRead = "auto",
     time_column: TimeColumnRead = None,
@@ -358,7 +365,9 @@ def import_command(
     def unit(session: Session) -> RawFile:
         row = records.find_run(session, run, campaign=campaign)
         with _progress(data.count, quiet) as advance:
-            return imports.import_logger_data(session, run=row, data=data, by=by, progress=advance)
+            return imports.import_logger_data(
+                session, run=row, data=data, by=by, progress=advance, outside_run=outside_run
+            )
 
     raw = store.write(unit)
     typer.echo(

@@ -29,8 +29,15 @@ def import_logger_data(
     data: LoggerData,
     by: str,
     progress: Callable[[int], None] | None = None,
+    outside_run: str | None = None,
 ) -> RawFile:
-    """Store a logger file byte for byte, its channel map and its samples, as one unit."""
+    """Store a logger file byte for byte, its channel map and its samples, as one unit.
+
+    Readings before the run's start or after its finish are refused unless ``outside_run``
+    is ``keep`` or ``drop``; the count and the choice go on the record.
+    """
+    from dataclasses import replace
+
     from testplan.store.samples import digest_arrays, insert_samples
 
     _open(session, run.campaign_id)
@@ -83,6 +90,8 @@ def import_logger_data(
             key="FILE",
             fix="the same bytes are stored once per run",
         )
+    outside, data = _outside_run(run, data, outside_run)
+    data = replace(data, options={**data.options, "outside_run": outside})
     first = dt.datetime.fromtimestamp(int(data.t_us.min()) / 1e6, dt.UTC)
     last = dt.datetime.fromtimestamp(int(data.t_us.max()) / 1e6, dt.UTC)
     raw = RawFile(
@@ -139,6 +148,37 @@ def import_logger_data(
         },
     )
     return raw
+
+
+def _outside_run(
+    run: RunRecord, data: LoggerData, how: str | None
+) -> tuple[dict[str, object], LoggerData]:
+    from dataclasses import replace
+
+    if how not in (None, "keep", "drop"):
+        raise RecordError(f"unknown choice {how!r}", key="--outside-run", fix="keep or drop")
+    t = data.t_us
+    mask = t < 0 if run.started_at is None else t < int(run.started_at.timestamp() * 1e6)
+    if run.finished_at is not None:
+        mask |= t > int(run.finished_at.timestamp() * 1e6)
+    count = int(mask.sum())
+    if count and how is None:
+        at = dt.datetime.fromtimestamp(int(t[mask.argmax()]) / 1e6, dt.UTC)
+        end = f" to {run.finished_at:%Y-%m-%d %H:%M:%SZ}" if run.finished_at else ""
+        raise RecordError(
+            f"{data.name}: {count} readings lie outside run {run.key} "
+            f"({run.started_at:%Y-%m-%d %H:%M:%SZ}{end}), the first at {at:%Y-%m-%d %H:%M:%SZ}",
+            key="--outside-run",
+            fix="say --outside-run keep or --outside-run drop",
+        )
+    if count and how == "drop":
+        if count == len(t):
+            raise RecordError(
+                f"{data.name}: every reading lies outside run {run.key}", key="--outside-run"
+            )
+        keep = ~mask
+        data = replace(data, t_us=t[keep], channel=data.channel[keep], value=data.value[keep])
+    return {"how": how, "count": count}, data
 
 
 def withdraw_import(

@@ -459,3 +459,24 @@ def test_an_import_cannot_be_withdrawn_after_the_data_check(running: Bench) -> N
         "withdrawn (record a deviation instead)"
     )
     assert running.sql("SELECT count(*) FROM raw_file WHERE withdrawn_at IS NULL") == [(1,)]
+
+
+def test_readings_outside_the_run_are_refused_unless_kept_or_dropped(running: Bench) -> None:
+    # the run started at 2027-01-12T16:05Z; two readings lie before it
+    path = running.folder / "early.csv"
+    path.write_text(
+        "time,level\n2027-01-12T16:04:58Z,205.0\n2027-01-12T16:04:59Z,205.1\n"
+        "2027-01-12T16:05:00Z,205.2\n2027-01-12T16:05:01Z,205.3\n"
+    )
+    args = ("record", "import", RUN, str(path), "--map", LEVEL, "--by", "AK")
+    assert running.fail(*args) == (
+        f"error: --outside-run: early.csv: 2 readings lie outside run {RUN} (2027-01-12 "
+        "16:05:00Z), the first at 2027-01-12 16:04:58Z (say --outside-run keep or "
+        "--outside-run drop)"
+    )
+    assert running.sql("SELECT count(*) FROM raw_file") == [(0,)]
+    running(*args, "--outside-run", "drop")
+    assert [t for _, t, _ in running.samples()] == [T0, T0 + 1_000_000]
+    [(content, options_json)] = running.sql("SELECT content, read_options_json FROM raw_file")
+    assert bytes(content) == path.read_bytes()
+    assert json.loads(options_json)["outside_run"] == {"how": "drop", "count": 2}
