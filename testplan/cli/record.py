@@ -35,6 +35,76 @@ app = command_group(
 RunArg = Annotated[str, typer.Argument(help="Run id from the plan, e.g. water-8@aged-1.")]
 ByOption = Annotated[str, typer.Option("--by", help="Initials of the person recording.")]
 
+MapOption = Annotated[
+    list[str],
+    typer.Option(
+        "--map",
+        help="SOURCE[UNIT]=QUANTITY@EQUIPMENT: a column (wide: its exact header text, quoted "
+        "when it holds brackets, =, @ or #, or its 1-based number) or channel name (long), its "
+        "unit (default: from the header), the plan quantity and the instrument; repeat for each "
+        "channel.",
+    ),
+]
+
+# Options that say how to read a logger file (record import and record preview).
+TzRead = Annotated[
+    str | None,
+    typer.Option(
+        "--tz",
+        help="Logger time zone for time stamps without one: IANA name or +hh:mm offset.",
+    ),
+]
+LayoutRead = Annotated[
+    str, typer.Option("--layout", help="long, wide or auto (long if it has channel and value).")
+]
+TimeColumnRead = Annotated[
+    str | None, typer.Option("--time-column", help="Default: time, date + time, or the first.")
+]
+ChannelColumnRead = Annotated[str, typer.Option("--channel-column")]
+ValueColumnRead = Annotated[str, typer.Option("--value-column")]
+DelimiterRead = Annotated[
+    str, typer.Option("--delimiter", help="auto, one character, tab, \\t, semicolon.")
+]
+DecimalRead = Annotated[str, typer.Option("--decimal", help="Decimal mark: auto, . or ,")]
+EncodingRead = Annotated[str, typer.Option("--encoding", help="auto: BOM, UTF-8, else cp1252.")]
+SkipLinesRead = Annotated[
+    int | None,
+    typer.Option("--skip-lines", help="Lines before the header (default: found).", min=0),
+]
+SkipUnmappedRead = Annotated[
+    bool, typer.Option("--skip-unmapped", help="Ignore channels not in --map.")
+]
+MissingRead = Annotated[
+    list[str] | None,
+    typer.Option("--missing", help="Another text that marks a missing reading."),
+]
+DateOrderRead = Annotated[
+    str | None, typer.Option("--date-order", help="dmy or mdy when the data cannot tell.")
+]
+TimeFormatRead = Annotated[
+    str | None, typer.Option("--time-format", help="strftime format of the time stamps.")
+]
+StartRead = Annotated[
+    str | None, typer.Option("--start", help="Start time for elapsed-time files.")
+]
+
+
+READ_KEYS = (
+    "tz", "layout", "time_column", "channel_column", "value_column", "delimiter", "decimal",
+    "encoding", "skip_lines", "skip_unmapped", "missing", "date_order", "time_format", "start",
+)  # fmt: skip
+
+
+def _read_options(params: dict[str, Any]) -> Any:
+    """ReadOptions from a command's file-reading options (shared by import and preview)."""
+    from testplan.importers.logger_csv import ReadOptions
+
+    given = {k: params[k] for k in READ_KEYS}
+    given["missing"] = tuple(given["missing"] or ())
+    given["timezone"] = given.pop("tz")
+    return ReadOptions(**given)
+
+
 # Which option gave each observation field, so a refusal names the option.
 OPTION_OF = {
     ("ingress", ""): "--ingress",
@@ -261,57 +331,29 @@ def deviation_command(
 def import_command(
     run: RunArg,
     file: Annotated[Path, typer.Argument(help="Logger CSV file, long or wide.")],
-    map_: Annotated[
-        list[str],
-        typer.Option(
-            "--map",
-            help="SOURCE[UNIT]=QUANTITY@EQUIPMENT: a column (wide) or channel name (long), its "
-            "unit, the plan quantity and the instrument; repeat for each channel.",
-        ),
-    ],
+    map_: MapOption,
     by: ByOption,
-    tz: Annotated[
+    outside_run: Annotated[
         str | None,
         typer.Option(
-            "--tz",
-            help="Logger time zone for time stamps without one: IANA name or +hh:mm offset.",
+            "--outside-run",
+            help="keep or drop readings before the run's start or after its finish.",
         ),
     ] = None,
-    layout: Annotated[
-        str, typer.Option("--layout", help="long, wide or auto (long if it has channel and value).")
-    ] = "auto",
-    time_column: Annotated[
-        str | None, typer.Option("--time-column", help="Default: time, date + time, or the first.")
-    ] = None,
-    channel_column: Annotated[str, typer.Option("--channel-column")] = "channel",
-    value_column: Annotated[str, typer.Option("--value-column")] = "value",
-    delimiter: Annotated[
-        str, typer.Option("--delimiter", help="auto, one character, tab, \\t, semicolon.")
-    ] = "auto",
-    decimal: Annotated[str, typer.Option("--decimal", help="Decimal mark: auto, . or ,")] = "auto",
-    encoding: Annotated[
-        str, typer.Option("--encoding", help="auto: BOM, UTF-8, else cp1252.")
-    ] = "auto",
-    skip_lines: Annotated[
-        int | None,
-        typer.Option("--skip-lines", help="Lines before the header (default: found).", min=0),
-    ] = None,
-    skip_unmapped: Annotated[
-        bool, typer.Option("--skip-unmapped", help="Ignore channels not in --map.")
-    ] = False,
-    missing: Annotated[
-        list[str] | None,
-        typer.Option("--missing", help="Another text that marks a missing reading."),
-    ] = None,
-    date_order: Annotated[
-        str | None, typer.Option("--date-order", help="dmy or mdy when the data cannot tell.")
-    ] = None,
-    time_format: Annotated[
-        str | None, typer.Option("--time-format", help="strftime format of the time stamps.")
-    ] = None,
-    start: Annotated[
-        str | None, typer.Option("--start", help="Start time for elapsed-time files.")
-    ] = None,
+    tz: TzRead = None,
+    layout: LayoutRead = "auto",
+    time_column: TimeColumnRead = None,
+    channel_column: ChannelColumnRead = "channel",
+    value_column: ValueColumnRead = "value",
+    delimiter: DelimiterRead = "auto",
+    decimal: DecimalRead = "auto",
+    encoding: EncodingRead = "auto",
+    skip_lines: SkipLinesRead = None,
+    skip_unmapped: SkipUnmappedRead = False,
+    missing: MissingRead = None,
+    date_order: DateOrderRead = None,
+    time_format: TimeFormatRead = None,
+    start: StartRead = None,
     campaign: CampaignOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
@@ -322,40 +364,116 @@ def import_command(
 
     Example: testplan record import water-8@aged-1 tank.csv --map "level[cm]=lowest_point_depth@LT-03" --tz Europe/London --by AK
     """
-    from testplan.importers.logger_csv import ReadOptions, parse_map, read_logger_file
+    from testplan.importers.logger_csv import parse_map, read_logger_file
 
-    options = ReadOptions(
-        layout=layout,  # type: ignore[arg-type]  # checked by the reader
-        timezone=tz,
-        time_column=time_column,
-        channel_column=channel_column,
-        value_column=value_column,
-        delimiter=delimiter,
-        decimal=decimal,
-        encoding=encoding,
-        skip_lines=skip_lines,
-        skip_unmapped=skip_unmapped,
-        missing=tuple(missing or ()),
-        date_order=date_order,
-        time_format=time_format,
-        start=start,
-    )
+    options = _read_options(locals())
     data = read_logger_file(file, [parse_map(m) for m in map_], options)
-    from testplan.store import records
+    from testplan.store import imports, records
 
     store = open_for_writing(db, quiet=quiet)
 
     def unit(session: Session) -> RawFile:
         row = records.find_run(session, run, campaign=campaign)
         with _progress(data.count, quiet) as advance:
-            return records.import_logger_data(session, run=row, data=data, by=by, progress=advance)
+            return imports.import_logger_data(
+                session, run=row, data=data, by=by, progress=advance, outside_run=outside_run
+            )
 
     raw = store.write(unit)
     typer.echo(
         f"{run}: imported {raw.samples} samples from {raw.name} "
         f"({raw.first_at:%Y-%m-%d %H:%M:%SZ} to {raw.last_at:%Y-%m-%d %H:%M:%SZ}), "
-        f"sha256 {raw.sha256[:16]}"
+        f"sha256 {raw.sha256[:16]}, import {raw.id}"
     )
+
+
+@app.command("withdraw")
+@reports_errors
+def withdraw_command(
+    run: RunArg,
+    import_id: Annotated[str, typer.Argument(metavar="IMPORT", help="Import id from import.")],
+    why: Annotated[str, typer.Option("--why", help="Why the import is withdrawn.")],
+    by: ByOption,
+    campaign: CampaignOption = None,
+    db: DbOption = None,
+    quiet: QuietOption = False,
+) -> None:
+    """Withdraw a wrong import until the run's data check: it stays stored and audited,
+    marked withdrawn, and judging ignores it.
+
+    Example: testplan record withdraw water-8@aged-1 3f2c... --why "wrong logger file" --by AK
+    """
+    from testplan.store import imports, records
+
+    store = open_for_writing(db, quiet=quiet)
+
+    def unit(session: Session) -> str:
+        row = records.find_run(session, run, campaign=campaign)
+        return imports.withdraw_import(session, run=row, import_id=import_id, why=why, by=by).name
+
+    name = store.write(unit)
+    typer.echo(f"{run}: import {import_id} ({name}) withdrawn")
+
+
+@app.command("preview", epilog="Quantities (plan unit): " + CHANNEL_LIST)
+@reports_errors
+def preview_command(
+    file: Annotated[Path, typer.Argument(help="Logger CSV file, long or wide.")],
+    map_: MapOption,
+    tz: TzRead = None,
+    layout: LayoutRead = "auto",
+    time_column: TimeColumnRead = None,
+    channel_column: ChannelColumnRead = "channel",
+    value_column: ValueColumnRead = "value",
+    delimiter: DelimiterRead = "auto",
+    decimal: DecimalRead = "auto",
+    encoding: EncodingRead = "auto",
+    skip_lines: SkipLinesRead = None,
+    skip_unmapped: SkipUnmappedRead = False,
+    missing: MissingRead = None,
+    date_order: DateOrderRead = None,
+    time_format: TimeFormatRead = None,
+    start: StartRead = None,
+    json_out: Annotated[bool, typer.Option("--json", help="Print JSON.")] = False,
+) -> None:
+    """Read a logger file exactly as `record import` would and show what was found; stores nothing.
+
+    Example: testplan record preview tank.csv --map "2=water_temperature" --tz +01:00
+    """
+    import json
+
+    from testplan.importers.logger_csv import parse_map, preview, read_logger_file
+
+    options = _read_options(locals())
+    data = read_logger_file(file, [parse_map(m) for m in map_], options)
+    shown = preview(data)
+    if json_out:
+        typer.echo(json.dumps(shown, indent=2, ensure_ascii=False))
+        return
+    d = shown["dialect"]
+    delim = {"\t": "tab", ",": "comma", ";": "semicolon"}.get(d["delimiter"], d["delimiter"])
+    typer.echo(
+        f"{file.name}: encoding {d['encoding']}, delimiter {delim}, decimal {d['decimal']!r}"
+        + (f", thousands {d['thousands']!r}" if d["thousands"] else "")
+    )
+    typer.echo(
+        f"header on line {d['header_line']}; {d['skipped_above']} lines above and "
+        f"{d['skipped_below']} under it skipped"
+    )
+    typer.echo(
+        f"time: {' + '.join(d['time_columns'])}, {d['time_format']}; "
+        f"zone {d['zone']} (from {d['zone_from']})"
+    )
+    for c in shown["channels"]:
+        unit = c["unit"] or "no unit"
+        typer.echo(
+            f"column {c['column']} {c['source']!r} [{c['source_unit'] or '-'}] -> {c['quantity']}"
+            f" ({unit}): {c['count']} readings, first {c['first']['value']:g} at "
+            f"{c['first']['time']}, last {c['last']['value']:g} at {c['last']['time']}, "
+            f"min {c['min']:g}, max {c['max']:g}"
+        )
+    for w in shown["warnings"]:
+        typer.echo(f"warning: {w}")
 
 
 class _progress:

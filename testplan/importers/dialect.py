@@ -110,7 +110,7 @@ def detect(
     delimiter: str | None,
     skip_lines: int | None,
     encoding: str,
-    timezone_hint: bool = False,
+    names: tuple[str, ...] = (),
 ) -> Dialect:
     """Find the delimiter, the header among banner lines and the units rows below it."""
     head = text.split("\n", _HEAD_LINES)[:_HEAD_LINES]
@@ -124,11 +124,15 @@ def detect(
         delimiter = _guess_delimiter(body)
     widths = [len(_fields(ln, delimiter)) for ln in head]
     if skip_lines is None:
-        data_width = Counter(w for w in widths[hint:] if w > 1).most_common(1)
-        width = data_width[0][0] if data_width else 1
-        skip_lines = next(
-            (i for i in range(hint, len(head)) if widths[i] >= width and head[i].strip()), hint
+        named = next(
+            (
+                i
+                for i in range(hint, len(head))
+                if names and set(names) <= set(_fields(head[i], delimiter))
+            ),
+            None,
         )
+        skip_lines = named if named is not None else _find_header(head, widths, hint, delimiter)
     header = _fields(head[skip_lines], delimiter) if skip_lines < len(head) else []
     below = 0
     units_row: list[str] = []
@@ -155,6 +159,43 @@ def detect(
         units_row=units_row,
         zone=zone,
         zone_from=zone_from,
+    )
+
+
+def _find_header(head: list[str], widths: list[int], hint: int, delimiter: str) -> int:
+    """The header: above the first data line, the last line of as many fields that is not a
+    units or processing row (banner and metadata lines above it have fewer fields or come
+    before it)."""
+    common = Counter(w for w in widths[hint:] if w > 1).most_common(1)
+    width = common[0][0] if common else 1
+    rows = [_fields(ln, delimiter) for ln in head]
+    first_data = next(
+        (
+            i
+            for i in range(hint, len(head))
+            if widths[i] >= width and rows[i] and _numberish(rows[i][0])
+        ),
+        len(head),
+    )
+    i = first_data - 1
+    header = None
+    while i >= hint and widths[i] >= min(width, 2) and head[i].strip():
+        if not all(_units_like(c) for c in rows[i]):
+            header = i
+            break
+        i -= 1
+    if header is None:
+        return next((i for i in range(hint, len(head)) if widths[i] >= width), hint)
+    return header
+
+
+_PROCESSING = {"avg", "min", "max", "smp", "mean", "sample", "inst", "actual", "unit", "units"}
+
+
+def _units_like(cell: str) -> bool:
+    low = cell.strip().lower()
+    return (
+        low == "" or low in UNIT_WORDS or low in _PROCESSING or bool(_UNIT_IN_HEADER.fullmatch(low))
     )
 
 

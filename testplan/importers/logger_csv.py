@@ -237,7 +237,19 @@ def read_logger_bytes(
     text, encoding = decode(content, name, opt.encoding)
     if not text.strip():
         raise LoggerFileError("the file is empty", file=name)
-    dialect = detect(text, given_delimiter, opt.skip_lines, encoding)
+    named = tuple(m.source for m in maps if m.position is None)
+    long_names: tuple[str, ...]
+    if opt.layout == "long" or (
+        opt.layout == "auto" and {opt.channel_column, opt.value_column} & set(named) == set()
+    ):
+        long_names = (opt.time_column or "time", opt.channel_column, opt.value_column)
+    else:
+        long_names = ()
+    dialect = detect(text, given_delimiter, opt.skip_lines, encoding, named)
+    if long_names and not set(long_names) <= set(dialect.header):
+        again = detect(text, given_delimiter, opt.skip_lines, encoding, long_names)
+        if set(long_names) <= set(again.header):
+            dialect = again
     delimiter = dialect.delimiter
     skip_lines = dialect.skipped_above
     header_line = skip_lines + 1
@@ -247,7 +259,10 @@ def read_logger_bytes(
     dupes = {s for s in sources if sources.count(s) > 1}
     if dupes:
         raise LoggerFileError(f"channel {sorted(dupes)[0]!r} mapped twice", key="--map")
-    decimal = opt.decimal if opt.decimal != "auto" else ("," if delimiter == ";" else ".")
+    decimal = opt.decimal
+    if decimal == "auto":
+        sample = "\n".join(text.split("\n", 60)[header_line:60])
+        decimal = "," if delimiter != "," and re.search(r"\d,\d", sample) else "."
     if delimiter == decimal:
         raise LoggerFileError("the delimiter and the decimal mark are the same", key="--decimal")
     if not opt.skip_lines:
@@ -257,19 +272,32 @@ def read_logger_bytes(
     time_columns = _time_columns(opt.time_column, header, name, header_line)
     markers = [*MISSING_MARKERS, *opt.missing]
     skip = list(range(skip_lines)) + list(range(header_line, header_line + dialect.skipped_below))
-    try:
-        df = pd.read_csv(
+
+    # Numbers are parsed by pandas' C reader where a column holds only numbers and markers;
+    # a column with other text comes back as text and is read (or named) by _NumberReader.
+    def read(types: Any) -> pd.DataFrame:
+        return pd.read_csv(
             io.StringIO(text),
             sep=delimiter,
+            decimal=decimal,
             skiprows=skip,
-            dtype=str,
+            dtype=types,
             keep_default_na=False,
-            na_values=[],
+            na_values=markers,
             skip_blank_lines=False,
             skipinitialspace=True,
             index_col=False,
             engine="c",
         )
+
+    text_columns: Any = {c: str for c in header if c in time_columns or c == channel_column}
+    if opt.decimal == "auto" and decimal == "." and delimiter == ";":
+        text_columns = str  # '1.013' may group thousands: _NumberReader decides from the text
+    try:
+        try:
+            df = read(text_columns)
+        except (ValueError, TypeError):
+            df = read(str)
     except pd.errors.ParserError as err:
         raise LoggerFileError(_parser_message(err, skip_lines), file=name) from None
     except pd.errors.EmptyDataError:
@@ -277,16 +305,21 @@ def read_logger_bytes(
     df.columns = [str(c).strip() for c in df.columns]
     # a trailing delimiter gives an unnamed, empty last column
     df = df.loc[:, [not (c.startswith("Unnamed: ") and df[c].isna().all()) for c in df.columns]]
-    df = df.fillna("")
-    for c in df.columns:
-        df[c] = df[c].str.strip()
     first_data = header_line + dialect.skipped_below
     lines = np.arange(len(df)) + first_data + 1  # file line of each data row
+    absent = [c for c in time_columns if c not in df.columns]
+    if absent:
+        raise LoggerFileError(
+            f"no {absent[0]!r} column (columns are: {', '.join(df.columns)})",
+            file=name,
+            line=header_line,
+            fix="name it with --time-column",
+        )
     values_cols = [c for c in df.columns if c not in time_columns]
-    blank = (df == "").all(axis=1).to_numpy()
+    blank = df.isna().all(axis=1).to_numpy()
     # footers and event rows: no time stamp, or nothing but markers in every reading
-    no_reading = df[values_cols].isin(markers).all(axis=1).to_numpy() if values_cols else blank
-    no_stamp = (df[time_columns[0]] == "").to_numpy()
+    no_reading = df[values_cols].isna().all(axis=1).to_numpy() if values_cols else blank
+    no_stamp = df[time_columns[0]].isna().to_numpy()
     drop = blank | (no_reading & layout_is_wide(layout)) | (no_stamp & no_reading)
     footers = int(drop.sum() - blank.sum())
     if drop.all():
@@ -295,6 +328,8 @@ def read_logger_bytes(
         keep = ~drop
         df = df.loc[keep].reset_index(drop=True)
         lines = lines[keep]
+    for c in time_columns:
+        df[c] = df[c].fillna("").astype(str).str.strip()
     source_lines = _Lines(text)
     stamp = df[time_columns[0]]
     for extra in time_columns[1:]:
@@ -338,6 +373,14 @@ def read_logger_bytes(
         "zone": zone_text or "as written on each time stamp",
         "zone_from": zone_from if not opt.start or zone_text else "--start",
         "missing": numbers.missing_counts(maps),
+        "columns": {
+            m.source: header.index(m.source if layout == "wide" else value_column) + 1
+            for m in maps
+            if (m.source if layout == "wide" else value_column) in header
+        },
+        "unmapped": [c for c in header if c and c not in time_columns and c not in sources]
+        if layout == "wide"
+        else [],
     }
     return LoggerData(
         name=Path(name).name,
@@ -376,6 +419,9 @@ def _time_columns(given: str | None, header: list[str], name: str, line: int) ->
     times = [i for i, h in enumerate(low) if "time" in h and "date" not in h]
     if dates and times and times[0] == dates[0] + 1:
         return [header[dates[0]], header[times[0]]]
+    for i, h in enumerate(low):
+        if any(word in h for word in ("time", "date", "zeit", "datum", "stamp")):
+            return [header[i]]
     if not header:
         raise LoggerFileError("no header line", file=name, line=line)
     return [header[0]]
@@ -434,6 +480,16 @@ class _Lines:
     def __init__(self, text: str) -> None:
         self.text = text
         self._lines: list[str] | None = None
+
+    def cell(self, line: int, column: str, delimiter: str, header: list[str]) -> str:
+        """The text of one cell as written in the file (for messages)."""
+        import csv
+
+        try:
+            row = next(csv.reader([self[line - 1]], delimiter=delimiter))
+            return row[header.index(column)].strip()
+        except (IndexError, ValueError, StopIteration, csv.Error):
+            return ""
 
     def __getitem__(self, i: int) -> str:
         if self._lines is None:
@@ -517,7 +573,8 @@ def _times(
             start = start.tz_localize(_zone_object(zone))
         out = (start.tz_convert("UTC").tz_localize(None) + td).to_numpy()
         return _as_us(out), "elapsed since --start"
-    if re.match(_STAMP, raw.iloc[0]) is None or opt.time_format or opt.date_order:
+    late_midnight = raw.str.contains(r"[ T]24:00", regex=True).any()
+    if re.match(_STAMP, raw.iloc[0]) is None or opt.time_format or opt.date_order or late_midnight:
         parsed, fmt = parse_local(raw, lines, name, column, opt.date_order, opt.time_format)
         if zone is None:
             raise LoggerFileError(
@@ -673,6 +730,16 @@ class _NumberReader:
         self.decimal_given = True
         self.missing: dict[str, int] = {}
 
+    def ambiguous(self, cell: str, mark: str, line: int, column: str) -> LoggerFileError:
+        """The refusal of a cell whose ``mark`` may group thousands or be the decimal mark."""
+        return LoggerFileError(
+            f"{cell!r}: {mark!r} may be a thousands separator or a decimal mark",
+            file=self.name,
+            line=line,
+            key=column,
+            fix="say which is the decimal mark with --decimal . or --decimal ,",
+        )
+
     def missing_counts(self, maps: list[ChannelMapping]) -> dict[str, int]:
         """Missing markers skipped, per mapped column."""
         return {m.source: self.missing.get(m.source, 0) for m in maps}
@@ -684,9 +751,19 @@ class _NumberReader:
         import numpy as np
         import pandas as pd
 
-        raw = col.astype(str).str.strip()
+        if pd.api.types.is_float_dtype(col.dtype) or pd.api.types.is_integer_dtype(col.dtype):
+            values = col.to_numpy(dtype=float)
+            empty = np.isnan(values)
+            return self._checked(values, empty, col, lines, column, allow_empty)
+        raw = col.fillna("").astype(str).str.strip()
         empty = raw.isin(self.markers).to_numpy()
         text = raw.where(~empty, "nan")
+        if not self.decimal_given and self.decimal == "." and self.delimiter == ";":
+            # a semicolon file often writes a decimal comma: '1.013' may mean 1013
+            dotted = text.str.contains(".", regex=False)
+            if dotted.any() and text[dotted].str.match(r"^[+-]?\d{1,3}(?:\.\d{3})+$").all():
+                i = int(np.argmax(dotted.to_numpy()))
+                raise self.ambiguous(raw.iloc[i], ".", int(lines[i]), column)
         other = "." if self.decimal == "," else ","
         has_other = text.str.contains(other, regex=False)
         if has_other.any():
@@ -698,26 +775,37 @@ class _NumberReader:
                 + r"\d*)?$"
             )
             wrong = (has_other & ~text.str.match(grouping)).to_numpy()
-            if wrong.any() or not self.decimal_given:
+            unsure = not self.decimal_given and not text.str.contains(self.decimal).any()
+            if wrong.any() or unsure:
                 i = int(np.argmax(wrong)) if wrong.any() else int(np.argmax(has_other))
-                raise LoggerFileError(
-                    f"{raw.iloc[i]!r}: {other!r} may be a thousands separator or a decimal mark",
-                    file=self.name,
-                    line=int(lines[i]),
-                    key=column,
-                    fix="say which is the decimal mark with --decimal . or --decimal ,",
-                )
+                raise self.ambiguous(raw.iloc[i], other, int(lines[i]), column)
             self.thousands = other
             text = text.str.replace(other, "", regex=False)
         if self.decimal != ".":
             text = text.str.replace(self.decimal, ".", regex=False)
         values = pd.to_numeric(text, errors="coerce").to_numpy(dtype=float)
+        return self._checked(values, empty, raw, lines, column, allow_empty)
+
+    def _checked(
+        self,
+        values: npt.NDArray[np.float64],
+        empty: npt.NDArray[np.bool_],
+        raw: pd.Series[Any],
+        lines: npt.NDArray[Any],
+        column: str,
+        allow_empty: bool,
+    ) -> npt.NDArray[np.float64]:
+        import numpy as np
+
         bad = ~np.isfinite(values) & ~empty
         if not allow_empty:
             bad |= empty
         if bad.any():
             i = int(np.argmax(bad))
-            what = "empty value" if empty[i] else f"{raw.iloc[i]!r} is not a finite number"
+            shown = str(raw.iloc[i]).strip()
+            if not isinstance(raw.iloc[i], str):
+                shown = self.source_lines.cell(int(lines[i]), column, self.delimiter, self.header)
+            what = "empty value" if empty[i] else f"{shown!r} is not a finite number"
             fix = None if empty[i] else "if it marks a missing reading, pass --missing TEXT"
             raise LoggerFileError(what, file=self.name, line=int(lines[i]), key=column, fix=fix)
         self.missing[column] = self.missing.get(column, 0) + int(empty.sum())
@@ -876,3 +964,45 @@ def _wide(
     ch = np.tile(np.arange(k, dtype=np.int32), n)[present]
     row_lines = np.repeat(lines, k)[present]
     return t, ch, _in_plan_units(flat[present], ch, row_lines, maps, name, None)
+
+
+def preview(data: LoggerData) -> dict[str, Any]:
+    """What ``record preview --json`` prints: per channel its column, unit, count, first and
+    last reading (UTC) and min/max in plan units; the dialect found; warnings."""
+    import numpy as np
+
+    def stamp(us: int) -> str:
+        return dt.datetime.fromtimestamp(us / 1e6, dt.UTC).isoformat().replace("+00:00", "Z")
+
+    channels = []
+    for i, m in enumerate(data.channels):
+        mine = np.flatnonzero(data.channel == i)
+        first, last = (int(mine[0]), int(mine[-1])) if len(mine) else (None, None)
+        channels.append(
+            {
+                "column": data.dialect.get("columns", {}).get(m.source),
+                "source": m.source,
+                "quantity": m.quantity,
+                "unit": m.plan_unit,
+                "source_unit": m.unit,
+                "count": len(mine),
+                "first": None
+                if first is None
+                else {"time": stamp(int(data.t_us[first])), "value": float(data.value[first])},
+                "last": None
+                if last is None
+                else {"time": stamp(int(data.t_us[last])), "value": float(data.value[last])},
+                "min": float(data.value[mine].min()) if len(mine) else None,
+                "max": float(data.value[mine].max()) if len(mine) else None,
+            }
+        )
+    warnings = []
+    for source, n in data.dialect.get("missing", {}).items():
+        if n:
+            warnings.append(f"{source}: {n} missing readings skipped")
+    if data.dialect.get("footer_or_event_rows"):
+        n = data.dialect["footer_or_event_rows"]
+        warnings.append(f"{n} footer or event rows without readings skipped")
+    for c in data.dialect.get("unmapped", []):
+        warnings.append(f"column {c!r} is not mapped and was not read")
+    return {"channels": channels, "dialect": data.dialect, "warnings": warnings}

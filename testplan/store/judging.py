@@ -62,7 +62,9 @@ def rule_of(plan: dict[str, Any]) -> J.Rule:
 def _series(session: Session, run: RunRecord) -> list[J.Series]:
     out = []
     raws = session.exec(
-        select(RawFile).where(RawFile.run_id == run.id).order_by(col(RawFile.imported_at))
+        select(RawFile)
+        .where(RawFile.run_id == run.id, col(RawFile.withdrawn_at).is_(None))
+        .order_by(col(RawFile.imported_at))
     ).all()
     serials = {s.id: s.serial for s in run_specimens(session, run)}
     for raw in raws:

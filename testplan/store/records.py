@@ -10,7 +10,7 @@ import datetime as dt
 import hashlib
 import json
 import uuid
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
 from difflib import get_close_matches
 from typing import TYPE_CHECKING, Any
@@ -18,7 +18,6 @@ from zoneinfo import ZoneInfo
 
 from sqlmodel import Session, col, select
 
-from testplan import __version__
 from testplan.errors import RecordError
 from testplan.store import audit
 from testplan.store.identity import (
@@ -42,13 +41,11 @@ from testplan.store.tables import (
     CriterionRecord,
     Deviation,
     Equipment,
-    LoggerChannel,
     Observation,
     Person,
     PersonKey,
     PlanRevision,
     ProcedureRecord,
-    RawFile,
     RunEquipment,
     RunRecord,
     RunSpecimen,
@@ -58,7 +55,6 @@ from testplan.store.tables import (
 
 if TYPE_CHECKING:  # pragma: no cover
     from testplan.domain.plan import Plan
-    from testplan.importers.logger_csv import LoggerData
     from testplan.reader import LoadedCampaign
 
 RUN_STATES = ("planned", "running", "finished", "checked", "withdrawn")
@@ -947,111 +943,6 @@ def receive_specimens(
 
 
 # --- logger data ------------------------------------------------------------------------
-
-
-def import_logger_data(
-    session: Session,
-    *,
-    run: RunRecord,
-    data: LoggerData,
-    by: str,
-    progress: Callable[[int], None] | None = None,
-) -> RawFile:
-    """Store a logger file byte for byte, its channel map and its samples, as one unit."""
-    from testplan.store.samples import digest_arrays, insert_samples
-
-    _open(session, run.campaign_id)
-    _state(run, ("running", "finished"), "import data into")
-    operator = require_role(session, by, "operator")
-    used = {
-        (e.equipment_id, c.channel): c
-        for e, c in session.exec(
-            select(RunEquipment, Calibration)
-            .join(Calibration, col(Calibration.id) == col(RunEquipment.calibration_id))
-            .where(RunEquipment.run_id == run.id)
-        ).all()
-    }
-    serials = {s.serial: s.id for s in run_specimens(session, run)}
-    channel_rows = []
-    for number, m in enumerate(data.channels):
-        equipment_id = calibration_id = None
-        specimen_id = None
-        if m.specimen is not None:
-            specimen_id = serials.get(m.specimen)
-            if specimen_id is None:
-                raise RecordError(
-                    f"specimen {m.specimen!r} is not on run {run.key} "
-                    f"(it has {', '.join(serials)})",
-                    key="--map",
-                )
-        if m.equipment is not None:
-            item = find_equipment(session, m.equipment, key="--map")
-            cal = used.get((item.id, m.quantity))
-            if cal is None:
-                raise RecordError(
-                    f"{m.equipment} was not recorded on run {run.key} with a {m.quantity} "
-                    "calibration",
-                    key="--map",
-                    fix="name the equipment when starting the run, or map another instrument",
-                )
-            equipment_id, calibration_id = item.id, cal.id
-        channel_rows.append((number, m, equipment_id, calibration_id, specimen_id))
-    first = dt.datetime.fromtimestamp(int(data.t_us.min()) / 1e6, dt.UTC)
-    last = dt.datetime.fromtimestamp(int(data.t_us.max()) / 1e6, dt.UTC)
-    raw = RawFile(
-        run_id=run.id,
-        name=data.name,
-        sha256=data.sha256,
-        size=len(data.content),
-        content=data.content,
-        layout=data.layout,
-        timezone=data.timezone,
-        read_options_json=audit.canonical(data.options),
-        tool_version=__version__,
-        operator_id=operator.id,
-        samples=data.count,
-        first_at=first,
-        last_at=last,
-        samples_sha256=digest_arrays(data.t_us, data.channel, data.value),
-    )
-    session.add(raw)
-    session.flush()
-    for number, m, equipment_id, calibration_id, specimen_id in channel_rows:
-        session.add(
-            LoggerChannel(
-                raw_file_id=raw.id,
-                number=number,
-                quantity=m.quantity,
-                source=m.source,
-                source_unit=m.unit,
-                unit=m.plan_unit,
-                scale=m.scale,
-                offset=m.offset,
-                equipment_id=equipment_id,
-                calibration_id=calibration_id,
-                specimen_id=specimen_id,
-            )
-        )
-    session.flush()
-    insert_samples(session, raw.id, data.t_us, data.channel, data.value, progress=progress)
-    audit.append(
-        session,
-        actor=operator.initials,
-        action="data.import",
-        entity="raw_file",
-        entity_id=raw.id,
-        campaign_id=run.campaign_id,
-        new={
-            "run": run.key,
-            "name": raw.name,
-            "sha256": raw.sha256,
-            "samples": raw.samples,
-            "samples_sha256": raw.samples_sha256,
-            "channels": [m.shown() for m in data.channels],
-            "tool_version": __version__,
-        },
-    )
-    return raw
 
 
 # --- observations -----------------------------------------------------------------------

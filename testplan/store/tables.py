@@ -300,6 +300,10 @@ class RawFile(SQLModel, table=True):
     first_at: dt.datetime = Field(sa_type=UTCDateTime)
     last_at: dt.datetime = Field(sa_type=UTCDateTime)
     samples_sha256: str = Field(max_length=64)
+    # a withdrawn import stays in the store and the audit trail; judging ignores it
+    withdrawn_at: dt.datetime | None = Field(default=None, sa_type=UTCDateTime)
+    withdrawn_by: str | None = None
+    withdrawn_why: str | None = None
 
 
 class LoggerChannel(SQLModel, table=True):

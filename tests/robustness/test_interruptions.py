@@ -123,6 +123,13 @@ def test_a_killed_import_leaves_all_or_nothing(bench: Bench) -> None:
         timed(bench, *args)
     assert files() == 1 and bench.sample_count() - before == ROWS
     store_checks_out(bench)
+    # The operator who saw the kill runs the import again: it committed, so it is refused.
+    line = bench.fail(*args)
+    assert (
+        line.startswith("error: FILE: tank.csv (sha256 ") and "is already imported into run" in line
+    )
+    assert line.endswith("(tank.csv) (the same bytes are stored once per run)")
+    assert files() == 1 and bench.sample_count() - before == ROWS
 
 
 def test_a_killed_report_leaves_no_half_written_pdf(signed: Signed) -> None:

@@ -3,9 +3,12 @@
 from __future__ import annotations
 
 import hashlib
+import json
 from pathlib import Path
 
 import pytest
+
+from tests.importers.cases import CASES
 
 from .conftest import START, Bench
 
@@ -359,3 +362,121 @@ def test_channels_can_name_the_specimen_they_measure(bench: Bench) -> None:
         "error: --map: specimen 'QC-2027-014-S05' is not on run water-8@ip-verification-1 "
         "(it has QC-2027-014-S01, QC-2027-014-S02)"
     )
+
+
+def _us(instant: str) -> int:
+    import datetime as dt
+
+    return int(dt.datetime.fromisoformat(instant.replace("Z", "+00:00")).timestamp() * 1e6)
+
+
+@pytest.mark.parametrize(("name", "options", "quantity", "expected", "facts"), CASES)
+def test_each_dialect_is_imported_as_previewed(
+    running: Bench,
+    name: str,
+    options: list[str],
+    quantity: str,
+    expected: list[tuple[str, float]],
+    facts: dict[str, object],
+) -> None:
+    path = DATA / name
+    running("record", "import", RUN, str(path), *options, "--by", "AK")
+    got = [(t, v) for q, t, v in running.samples() if q == quantity]
+    assert [t for t, _ in got] == [_us(t) for t, _ in expected]
+    # common practice (no source): the conversions are worked by hand in tests/importers/cases.py
+    assert [v for _, v in got] == pytest.approx([v for _, v in expected])
+    [(content, options_json)] = running.sql("SELECT content, read_options_json FROM raw_file")
+    assert bytes(content) == path.read_bytes()  # as received, never a converted copy
+    kept = json.loads(options_json)
+    for key, value in facts.items():
+        assert kept["dialect"][key] == value, key
+
+
+def test_the_same_file_twice_is_refused_naming_the_earlier_import(running: Bench) -> None:
+    path = DATA / "trailing.csv"
+    args = ("record", "import", RUN, str(path), "--map", "2=ambient_temperature", "--by", "AK")
+    running(*args)
+    [(raw_id, at)] = running.sql("SELECT id, imported_at FROM raw_file")
+    audit_before = running.sql("SELECT count(*) FROM audit")
+    line = running.fail(*args)
+    sha = hashlib.sha256(path.read_bytes()).hexdigest()
+    import datetime as dt
+    import uuid
+
+    when = at if isinstance(at, dt.datetime) else dt.datetime.fromisoformat(str(at))
+    assert line == (
+        f"error: FILE: trailing.csv (sha256 {sha[:16]}) is already imported into run {RUN}: "
+        f"import {uuid.UUID(str(raw_id))} of {when:%Y-%m-%d %H:%M:%S}Z (trailing.csv) (the same "
+        "bytes are stored once per run)"
+    )
+    assert running.sql("SELECT count(*) FROM raw_file") == [(1,)]
+    assert running.sql("SELECT count(*) FROM audit") == audit_before
+
+
+def test_a_withdrawn_import_stays_stored_and_audited_but_is_not_judged(running: Bench) -> None:
+    import sqlalchemy as sa
+    from sqlmodel import Session, select
+
+    from testplan.store.judging import _series
+    from testplan.store.tables import RunRecord
+
+    path = DATA / "tank-long.csv"
+    out = running("record", "import", RUN, str(path), "--map", LEVEL, "--map", WATER, "--by", "AK")
+    import_id = out.stdout.strip().rsplit("import ", 1)[1]
+    assert running.fail("record", "withdraw", RUN, "nope", "--why", "x", "--by", "AK") == (
+        f"error: IMPORT: no import 'nope' on run {RUN} (give the import id that `record import` "
+        "printed)"
+    )
+    running("record", "withdraw", RUN, import_id, "--why", "wrong tank logger", "--by", "AK")
+    [(name, by, why, at)] = running.sql(
+        "SELECT name, withdrawn_by, withdrawn_why, withdrawn_at FROM raw_file"
+    )
+    assert (name, by, why) == ("tank-long.csv", "AK", "wrong tank logger") and at is not None
+    assert running.sql("SELECT count(*) FROM sample_block") == [(1,)]  # samples kept
+    assert running.sql("SELECT why FROM audit WHERE action = 'data.withdraw'") == [
+        ("wrong tank logger",)
+    ]
+    line = running.fail("record", "withdraw", RUN, import_id, "--why", "again", "--by", "AK")
+    assert line == f"error: IMPORT: import {import_id} was already withdrawn by AK"
+    engine = sa.create_engine(running.url)
+    with Session(engine) as session:
+        run = session.exec(select(RunRecord).where(RunRecord.key == RUN)).one()
+        assert _series(session, run) == []  # judging sees no samples from it
+    engine.dispose()
+    # withdrawn, it no longer blocks the same file from being imported again correctly
+    running("record", "import", RUN, str(path), "--map", LEVEL, "--map", WATER, "--by", "AK")
+
+
+def test_an_import_cannot_be_withdrawn_after_the_data_check(running: Bench) -> None:
+    path = DATA / "tank-long.csv"
+    out = running("record", "import", RUN, str(path), "--map", LEVEL, "--map", WATER, "--by", "AK")
+    import_id = out.stdout.strip().rsplit("import ", 1)[1]
+    running("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
+    running("record", "check", RUN, *running.signed("MO"), "--at", "2027-01-16T09:00Z", "--quiet")
+    line = running.fail("record", "withdraw", RUN, import_id, "--why", "late", "--by", "AK")
+    assert line == (
+        f"error: IMPORT: run {RUN} has had its data check; its imports can no longer be "
+        "withdrawn (record a deviation instead)"
+    )
+    assert running.sql("SELECT count(*) FROM raw_file WHERE withdrawn_at IS NULL") == [(1,)]
+
+
+def test_readings_outside_the_run_are_refused_unless_kept_or_dropped(running: Bench) -> None:
+    # the run started at 2027-01-12T16:05Z; two readings lie before it
+    path = running.folder / "early.csv"
+    path.write_text(
+        "time,level\n2027-01-12T16:04:58Z,205.0\n2027-01-12T16:04:59Z,205.1\n"
+        "2027-01-12T16:05:00Z,205.2\n2027-01-12T16:05:01Z,205.3\n"
+    )
+    args = ("record", "import", RUN, str(path), "--map", LEVEL, "--by", "AK")
+    assert running.fail(*args) == (
+        f"error: --outside-run: early.csv: 2 readings lie outside run {RUN} (2027-01-12 "
+        "16:05:00Z), the first at 2027-01-12 16:04:58Z (say --outside-run keep or "
+        "--outside-run drop)"
+    )
+    assert running.sql("SELECT count(*) FROM raw_file") == [(0,)]
+    running(*args, "--outside-run", "drop")
+    assert [t for _, t, _ in running.samples()] == [T0, T0 + 1_000_000]
+    [(content, options_json)] = running.sql("SELECT content, read_options_json FROM raw_file")
+    assert bytes(content) == path.read_bytes()
+    assert json.loads(options_json)["outside_run"] == {"how": "drop", "count": 2}
