@@ -47,25 +47,30 @@ def fingerprint(public_b64: str) -> str:
 
 
 def load_private(path: Path, passphrase: str) -> Ed25519PrivateKey:
-    from cryptography.hazmat.primitives import serialization
-    from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
-
     try:
         data = path.read_bytes()
     except FileNotFoundError:
         raise KeyFileError("no such key file", file=path, key="--key") from None
     except OSError as err:
         raise KeyFileError(f"cannot read: {err.strerror}", file=path, key="--key") from None
+    return private_from_pem(data, passphrase, path)
+
+
+def private_from_pem(data: bytes, passphrase: str, name: str | Path) -> Ed25519PrivateKey:
+    """Open a passphrase-protected key file's bytes (``name`` is used in messages)."""
+    from cryptography.hazmat.primitives import serialization
+    from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
+
     try:
         key = serialization.load_pem_private_key(data, passphrase.encode())
     except (ValueError, TypeError):
         raise KeyFileError(
             "cannot open the key: wrong passphrase, or not a testplan key file",
-            file=path,
+            file=name,
             key="--key",
         ) from None
     if not isinstance(key, Ed25519PrivateKey):
-        raise KeyFileError("not an Ed25519 key", file=path, key="--key")
+        raise KeyFileError("not an Ed25519 key", file=name, key="--key")
     return key
 
 
