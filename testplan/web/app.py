@@ -356,6 +356,7 @@ class BenchApp:
             errors["file"] = _message(err)
         with self.store.reading() as session:
             equipment = views.run_equipment_tags(session, meta["run"])
+            specimens = views.run_serials(session, meta["run"])
         return self.render(
             request,
             "preview",
@@ -368,6 +369,7 @@ class BenchApp:
                 preview=preview,
                 channels=list(CHANNELS.values()),
                 equipment=equipment,
+                specimens=specimens,
                 given=_given(getattr(request.state, "form", None)),
             ),
             status,
@@ -391,7 +393,9 @@ class BenchApp:
                 continue
             unit = _text(form, f"unit_{i}").strip()
             equipment = _text(form, f"equipment_{i}")
+            specimen = _text(form, f"specimen_{i}")
             text = f"{source}[{unit}]={quantity}" + (f"@{equipment}" if equipment else "")
+            text += f"#{specimen}" if specimen else ""
             maps.append(text)
         if not maps:
             return await self.logger_preview(request, me, {"map": "pick at least one channel"}, 400)

@@ -96,6 +96,11 @@ def run_equipment_tags(session: Session, key: str) -> list[str]:
     return sorted(set(tags))
 
 
+def run_serials(session: Session, key: str) -> list[str]:
+    """Serials of the specimens on a run."""
+    return [s.serial for s in records.run_specimens(session, records.find_run(session, key))]
+
+
 def results(session: Session, key: str) -> dict[str, Any]:
     """The latest judgement's verdicts and the report's plots (SVG text) for a run."""
     from testplan.report.plots import Figure, run_figures
