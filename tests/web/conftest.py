@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import re
 from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 
 import pytest
@@ -27,9 +28,9 @@ class Clock:
         return self.now
 
 
-def stocked(folder: Path, monkeypatch: pytest.MonkeyPatch) -> Bench:
-    """The store tests' stock, a password for AK, JT and MO, and a registered key for JT."""
-    bench = stock(Bench(f"sqlite:///{folder / 'lab.db'}", folder))
+def stocked(folder: Path, monkeypatch: pytest.MonkeyPatch, url: str | None = None) -> Bench:
+    """The store tests' stock, a password for AK, JT and MO, and registered keys for JT, AK."""
+    bench = stock(Bench(url or f"sqlite:///{folder / 'lab.db'}", folder))
     monkeypatch.setenv("TESTPLAN_KEY_PASSPHRASE", PASS)
     for who, password in PASSWORDS.items():
         result = bench.runner.invoke(
@@ -63,18 +64,27 @@ def clock() -> Clock:
     return Clock()
 
 
-@pytest.fixture
-def client(bench: Bench, clock: Clock, tmp_path: Path) -> Iterator[TestClient]:
+@contextmanager
+def client_for(bench: Bench, clock: Clock) -> Iterator[TestClient]:
+    """A TestClient over the bench page of ``bench``'s store."""
     from testplan.store.engine import open_store
     from testplan.web.app import make_app
 
     store = open_store(bench.url)
-    uploads = tmp_path / "uploads"
+    uploads = bench.folder / "uploads"
     uploads.mkdir()
     app = make_app(store, idle_minutes=30, clock=clock, upload_dir=uploads)
-    with TestClient(app, base_url="http://127.0.0.1") as c:
+    try:
+        with TestClient(app, base_url="http://127.0.0.1") as c:
+            yield c
+    finally:
+        store.dispose()
+
+
+@pytest.fixture
+def client(bench: Bench, clock: Clock) -> Iterator[TestClient]:
+    with client_for(bench, clock) as c:
         yield c
-    store.dispose()
 
 
 def csrf_of(html: str) -> str:

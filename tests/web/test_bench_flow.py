@@ -7,8 +7,8 @@ from pathlib import Path
 import pytest
 from starlette.testclient import TestClient
 
-from tests.store.conftest import PASS, Bench
-from tests.web.conftest import DATA, RUN, START_FORM, csrf_of, log_in, stocked
+from tests.store.conftest import PASS, Bench, db_url
+from tests.web.conftest import DATA, RUN, START_FORM, Clock, client_for, csrf_of, log_in, stocked
 from tests.web.twin import INGRESS, differences, record_twin
 
 
@@ -64,18 +64,25 @@ def whole_run(client: TestClient, folder: Path) -> None:
     assert "data checked" in reply.text
 
 
+__all__ = ["db_url"]  # the store tests' fixture: SQLite, and PostgreSQL when a server is given
+
+
 def test_a_whole_run_stores_what_the_cli_stores(
-    client: TestClient, bench: Bench, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+    db_url: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
 ) -> None:
-    whole_run(client, tmp_path)
+    folder = tmp_path / "web"
+    folder.mkdir()
+    bench = stocked(folder, monkeypatch, db_url)
+    with client_for(bench, Clock()) as client:
+        whole_run(client, folder)
+        for page in ("/", f"/run/{RUN}", f"/run/{RUN}/results", f"/run/{RUN}/live"):
+            assert client.get(page).status_code == 200
     twin_folder = tmp_path / "twin"
     twin_folder.mkdir()
     twin = stocked(twin_folder, monkeypatch)
     record_twin(twin)
     assert differences(bench, twin) == {}
     assert bench("store", "check").exit_code == 0
-    for page in ("/", f"/run/{RUN}", f"/run/{RUN}/results", f"/run/{RUN}/live"):
-        assert client.get(page).status_code == 200
 
 
 def test_a_refused_start_shows_the_message_beside_the_field_and_stores_nothing(

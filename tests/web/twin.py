@@ -70,8 +70,9 @@ SAME = {
     "LEFT JOIN person c ON c.id = r.checker_id ORDER BY r.key",
     "equipment": "SELECT c.certificate, c.channel FROM run_equipment e JOIN calibration c "
     "ON c.id = e.calibration_id ORDER BY c.channel",
+    # the first and last times are in samples_sha256 (drivers return them as different types)
     "raw_file": "SELECT name, sha256, size, layout, timezone, read_options_json, samples, "
-    "first_at, last_at, samples_sha256 FROM raw_file",
+    "samples_sha256 FROM raw_file",
     "channels": 'SELECT number, quantity, source, source_unit, unit, scale, "offset" '
     "FROM logger_channel ORDER BY number",
     "blocks": "SELECT block, n, sha256 FROM sample_block ORDER BY block",
