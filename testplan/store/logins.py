@@ -110,16 +110,35 @@ def log_in(session: Session, *, initials: str, password: str) -> Person | str:
     return found
 
 
+def log_in_with_key(
+    session: Session, *, initials: str, key: Ed25519PrivateKey | None
+) -> Person | str:
+    """Like ``log_in``, with an opened private key (None: it did not open) for the password."""
+    wait = wait_seconds(session, initials)
+    if wait > 0:
+        return f"too many failed logins; try again in {wait:.0f} s"
+    found = session.exec(select(Person).where(Person.initials == initials)).first()
+    if found is None or key is None or not _owns(session, found, key):
+        session.add(LoginFailure(initials=initials[:16]))
+        return "unknown initials, or not their key or passphrase"
+    session.exec(delete(LoginFailure).where(col(LoginFailure.initials) == initials))
+    return found
+
+
+def _owns(session: Session, person: Person, key: Ed25519PrivateKey) -> bool:
+    from testplan.keys import fingerprint, public_of
+
+    mine = session.exec(select(PersonKey.fingerprint).where(PersonKey.person_id == person.id))
+    return fingerprint(public_of(key)) in set(mine.all())
+
+
 def require_own_key(session: Session, *, initials: str, key: Ed25519PrivateKey) -> Person:
     """The person, when ``key`` is the private half of a key registered for them.
 
     Raises RecordError otherwise: a signed act on the bench page is done with one's own key.
     """
-    from testplan.keys import fingerprint, public_of
-
     person = find_person(session, initials)
-    mine = session.exec(select(PersonKey.fingerprint).where(PersonKey.person_id == person.id))
-    if fingerprint(public_of(key)) not in set(mine.all()):
+    if not _owns(session, person, key):
         raise RecordError(
             f"this key is not registered for {person.initials}",
             key="key",

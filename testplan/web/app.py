@@ -156,13 +156,15 @@ class BenchApp:
         return response
 
     async def login(self, request: Request) -> Response:
-
+        """The login form's POST; its spooled upload is closed whatever happens."""
         try:
             return await self._login(request)
         finally:
             await self.close_form(request)
 
     async def _login(self, request: Request) -> Response:
+        """Log in by password, or by key file and passphrase when a key file is given."""
+        from testplan.keys import private_from_pem
         from testplan.store import logins, records
         from testplan.store.tables import Person
 
@@ -172,16 +174,28 @@ class BenchApp:
         ):
             return HTMLResponse("this form has expired; reload the page", status_code=403)
         initials = _text(form, "initials").strip()
-        password = _text(form, "password")
+        upload = form.get("key_file")
+        by_key = isinstance(upload, UploadFile) and bool(upload.filename)
+        private = None
+        if by_key:
+            assert isinstance(upload, UploadFile)
+            try:
+                data = await upload.read(64 * 1024)
+                private = private_from_pem(data, _text(form, "passphrase"), "key file")
+            except TestplanError:
+                private = None
 
         def unit(session: Session) -> tuple[Person | str, frozenset[str]]:
-            got = logins.log_in(session, initials=initials, password=password)
+            if by_key:
+                got = logins.log_in_with_key(session, initials=initials, key=private)
+            else:
+                got = logins.log_in(session, initials=initials, password=_text(form, "password"))
             roles = frozenset(records.roles_of(session, got)) if isinstance(got, Person) else None
             return got, roles or frozenset()
 
         got, roles = self.store.write(unit)
         if isinstance(got, str):
-            return self._login_form(request, {"password": got}, status=401)
+            return self._login_form(request, {"key" if by_key else "password": got}, status=401)
         response = RedirectResponse("/", status_code=303)
         self.cookie(response, security.COOKIE, self.sessions.open(got.initials, roles))
         return response

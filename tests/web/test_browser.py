@@ -83,7 +83,7 @@ def log_in(page: Any, base: str, who: str) -> None:
     page.goto(f"{base}/login")
     page.fill("#initials", who)
     page.fill("#password", PASSWORDS[who])
-    page.get_by_role("button", name="Log in").click()
+    page.get_by_role("button", name="Log in", exact=True).click()
     page.wait_for_url(f"{base}/")
 
 

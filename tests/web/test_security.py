@@ -222,3 +222,26 @@ def test_failed_logins_back_off(client: TestClient, bench: Bench) -> None:
 def test_serve_refuses_a_lan_address_without_tls(bench: Bench, args: list[str], said: str) -> None:
     result = CliRunner().invoke(cli_app, ["serve", *args, "--db", bench.url])
     assert result.exit_code == 1 and result.stderr.startswith(said), result.stderr
+
+
+def test_log_in_with_ones_own_key_file_and_passphrase(
+    client: TestClient, bench: Bench, tmp_path: Path
+) -> None:
+    def attempt(who: str, key_file: str, passphrase: str) -> int:
+        page = client.get("/login")
+        reply = client.post(
+            "/login",
+            data={"csrf": csrf_of(page.text), "initials": who, "passphrase": passphrase},
+            files={"key_file": ("k.pem", (tmp_path / key_file).read_bytes(), "text/plain")},
+            follow_redirects=False,
+        )
+        if reply.status_code == 401:
+            assert 'id="key-error"' in reply.text
+        return reply.status_code
+
+    assert attempt("JT", "AK.pem", PASS) == 401  # another person's key
+    assert attempt("JT", "JT.pem", "not it") == 401
+    assert bench.sql("SELECT count(*) FROM login_failure") == [(2,)]
+    assert attempt("JT", "JT.pem", PASS) == 303
+    assert client.get("/", follow_redirects=False).status_code == 200
+    assert bench.sql("SELECT count(*) FROM login_failure") == [(0,)]
