@@ -364,7 +364,7 @@ class BenchApp:
         preview = None
         try:
             preview = preview_logger_bytes(
-                path.read_bytes(), meta["name"], _read_options(meta["options"], [])
+                _head_of(path), meta["name"], _read_options(meta["options"], [])
             )
         except TestplanError as err:
             errors["file"] = _message(err)
@@ -530,6 +530,19 @@ class BenchApp:
 
 
 READ_FIELDS = ("layout", "tz", "delimiter", "decimal", "encoding", "skip_lines")
+
+
+PREVIEW_BYTES = 1 << 20
+
+
+def _head_of(path: Path) -> bytes:
+    """The first whole lines of an uploaded file (at most PREVIEW_BYTES): the preview never
+    reads a large log whole."""
+    with path.open("rb") as f:
+        head = f.read(PREVIEW_BYTES)
+    if len(head) == PREVIEW_BYTES and b"\n" in head:
+        head = head[: head.rindex(b"\n") + 1]
+    return head
 
 
 def _read_options(given: dict[str, str], _maps: list[str], skip_unmapped: bool = False) -> Any:

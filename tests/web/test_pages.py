@@ -68,3 +68,35 @@ def test_cookies_are_secure_under_tls(bench: Bench) -> None:
         assert "secure" in cookie and "httponly" in cookie and "samesite=strict" in cookie
     finally:
         store.dispose()
+
+
+def test_a_logger_file_larger_than_the_preview_window_is_previewed_and_imported_whole(
+    client: TestClient, bench: Bench, tmp_path: Path
+) -> None:
+    from testplan.web.app import PREVIEW_BYTES
+    from tests.web.conftest import START_FORM, csrf_of
+
+    lines = ["time,channel,value"]
+    for i in range(45_000):
+        stamp = f"2027-01-12T16:{5 + i // 3600:02d}:{(i // 60) % 60:02d}.{i % 60:02d}Z"
+        lines.append(f"{stamp},level,{205.4 + (i % 7) * 0.01:.2f}")
+    content = ("\n".join(lines) + "\n").encode()
+    assert len(content) > PREVIEW_BYTES
+    csrf = log_in(client, "AK")
+    ticks = {f"item_{i}": "ok" for i in range(1, 10)}
+    client.post(f"/run/{RUN}/start", data={"csrf": csrf, **START_FORM, **ticks})
+    where = client.post(
+        f"/run/{RUN}/logger",
+        data={"csrf": csrf},
+        files={"file": ("long-log.csv", content, "text/csv")},
+        follow_redirects=False,
+    ).headers["location"]
+    preview = client.get(where).text
+    assert "<legend>level</legend>" in preview and csrf_of(preview) == csrf
+    reply = client.post(
+        where,
+        data={"csrf": csrf, "source": ["level"], "quantity_0": "lowest_point_depth",
+              "unit_0": "cm", "equipment_0": "LT-03"},
+    )  # fmt: skip
+    assert "imported 45000 samples from long-log.csv" in reply.text
+    assert bench.sql("SELECT size FROM raw_file") == [(len(content),)]
