@@ -46,6 +46,8 @@ FIELD_OF = {
     "--tz": "tz",
     "--at": "form",
     "--key": "key",
+    "--approved-by": "approver",
+    "--reason": "reason",
     "key": "key",
     "password": "password",
     "photo": "photo",
@@ -312,6 +314,46 @@ class BenchApp:
         _, errors = self.act(request, unit)
         return await self.run_page(
             request, me, errors, 400 if errors else 200, [] if errors else ["data checked"]
+        )
+
+    async def deviation(self, request: Request, me: BenchSession) -> Response:
+        """A deviation, approved on the spot: the approver signs with their own key file."""
+        from testplan.keys import private_from_pem
+        from testplan.store import logins, records
+
+        key = request.path_params["key"]
+        form = request.state.form
+        approver = _text(form, "approver").strip()
+        upload = form.get("approver_key")
+        if not isinstance(upload, UploadFile) or not upload.filename:
+            return await self.run_page(
+                request, me, {"approver_key": "the approver's key file"}, 400
+            )
+        try:
+            private = private_from_pem(
+                await upload.read(64 * 1024), _text(form, "approver_passphrase"), "key file"
+            )
+        except TestplanError as err:
+            return await self.run_page(request, me, {"approver_key": _message(err)}, 400)
+
+        def unit(session: Session) -> None:
+            logins.require_own_key(session, initials=approver, key=private)
+            run = records.find_run(session, key)
+            records.add_deviation(
+                session,
+                run=run,
+                description=_text(form, "description"),
+                reason=_text(form, "reason"),
+                approver=approver,
+                recorded_by=me.initials,
+            )
+
+        _, errors = self.act(request, unit)
+        if errors:
+            return await self.run_page(request, me, errors, 400)
+        request.state.form = None
+        return await self.run_page(
+            request, me, notes=[f"deviation recorded, approved by {approver}"]
         )
 
     # --- logger files ----------------------------------------------------------------
@@ -644,6 +686,7 @@ def make_app(
         Route("/run/{key}/start", g(bench.start, write=True), methods=["POST"]),
         Route("/run/{key}/finish", g(bench.finish, write=True), methods=["POST"]),
         Route("/run/{key}/check", g(bench.check, write=True), methods=["POST"]),
+        Route("/run/{key}/deviation", g(bench.deviation, write=True), methods=["POST"]),
         Route("/run/{key}/observe", g(bench.observe, write=True), methods=["POST"]),
         Route("/run/{key}/logger", g(bench.logger_upload, write=True), methods=["POST"]),
         Route("/run/{key}/logger/{token}", g(bench.logger_preview, write=False), methods=["GET"]),

@@ -26,6 +26,7 @@ POSTS = [
     f"/run/{RUN}/finish",
     f"/run/{RUN}/check",
     f"/run/{RUN}/observe",
+    f"/run/{RUN}/deviation",
     f"/run/{RUN}/logger",
     f"/run/{RUN}/logger/" + "0" * 32,
 ]
@@ -245,3 +246,31 @@ def test_log_in_with_ones_own_key_file_and_passphrase(
     assert attempt("JT", "JT.pem", PASS) == 303
     assert client.get("/", follow_redirects=False).status_code == 200
     assert bench.sql("SELECT count(*) FROM login_failure") == [(0,)]
+
+
+def test_a_deviation_is_approved_only_by_an_approver_with_their_own_key(
+    client: TestClient, bench: Bench, tmp_path: Path
+) -> None:
+    csrf = log_in(client, "AK")
+    bench.plain("keys", "new", "MO", "--out", str(tmp_path / "MO.pem"))
+    bench("keys", "register", "MO", "--public", str(tmp_path / "MO.pem.pub"), "--quiet")
+
+    def deviation(approver: str, key_file: str) -> str:
+        reply = client.post(
+            f"/run/{RUN}/deviation",
+            data={
+                "csrf": csrf,
+                "description": "tank at 1.9 m for 3 min while topping up",
+                "reason": "leak in the tank valve",
+                "approver": approver,
+                "approver_passphrase": PASS,
+            },
+            files={"approver_key": ("k.pem", (tmp_path / key_file).read_bytes(), "text/plain")},
+        )
+        return reply.text
+
+    assert "is not authorised as approver" in deviation("AK", "AK.pem")  # an operator
+    assert "this key is not registered for MO" in deviation("MO", "AK.pem")
+    assert bench.sql("SELECT count(*) FROM deviation") == [(0,)]
+    assert "deviation recorded, approved by MO" in deviation("MO", "MO.pem")
+    assert bench.sql("SELECT count(*) FROM deviation") == [(1,)]
