@@ -59,18 +59,21 @@ def serve_command(
     import uvicorn
 
     from testplan.cli.common import open_for_reading
-    from testplan.web.app import make_app
+    from testplan.web.app import make_app, remove_uploads
 
     store = open_for_reading(db)
     app = make_app(store, secure_cookies=tls, idle_minutes=idle_minutes)
     scheme = "https" if tls else "http"
     say(f"store: {store.name}")
     say(f"bench page: {scheme}://{host}:{port}/")
-    uvicorn.run(
-        app,
-        host=host,
-        port=port,
-        ssl_certfile=str(certfile) if certfile else None,
-        ssl_keyfile=str(keyfile) if keyfile else None,
-        log_level="warning",
-    )
+    try:
+        uvicorn.run(
+            app,
+            host=host,
+            port=port,
+            ssl_certfile=str(certfile) if certfile else None,
+            ssl_keyfile=str(keyfile) if keyfile else None,
+            log_level="warning",
+        )
+    finally:
+        remove_uploads(app)  # logger files uploaded but never imported

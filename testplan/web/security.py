@@ -45,8 +45,11 @@ class Sessions:
 
     def open(self, initials: str, roles: frozenset[str]) -> str:
         """A new session; returns the cookie value."""
+        now = self.clock()
+        for old in [k for k, v in self._by_id.items() if now - v.last_seen > self.idle_s]:
+            del self._by_id[old]  # forget sessions that ran out unseen
         sid = secrets.token_urlsafe(32)
-        self._by_id[sid] = BenchSession(initials, roles, last_seen=self.clock())
+        self._by_id[sid] = BenchSession(initials, roles, last_seen=now)
         return self._cookie.dumps(sid)
 
     def find(self, cookie: str | None) -> BenchSession | None:
