@@ -720,3 +720,47 @@ def _wide(
     ch = np.tile(np.arange(k, dtype=np.int32), n)[present]
     row_lines = np.repeat(lines, k)[present]
     return t, ch, _in_plan_units(flat[present], ch, row_lines, maps, name, None)
+
+
+@dataclass(frozen=True)
+class Preview:
+    """The head of a logger file as the reader sees it, for picking the channel map.
+
+    ``sources`` are what a map entry's SOURCE may name: the value columns of a wide file,
+    or the channel names seen in the first ``PREVIEW_SCAN`` lines of a long one.
+    """
+
+    layout: str
+    columns: list[str]
+    rows: list[list[str]]
+    sources: list[str]
+
+
+PREVIEW_SCAN = 2000
+
+
+def preview_logger_bytes(
+    content: bytes, name: str, options: ReadOptions | None = None, rows: int = 8
+) -> Preview:
+    """The header, first ``rows`` rows and the mappable sources of a logger file.
+
+    Raises LoggerFileError when the file cannot be decoded or has no header.
+    """
+    import csv
+
+    opt = options or ReadOptions()
+    text = _decode(content, name, opt.encoding)
+    columns = _header(text, opt.delimiter, opt.skip_lines)
+    if not columns or columns == [""]:
+        raise LoggerFileError("no header line", file=Path(name), key="--skip-lines")
+    layout = opt.layout
+    if layout == "auto":
+        layout = "long" if {opt.channel_column, opt.value_column} <= set(columns) else "wide"
+    head = _head(text, opt.skip_lines + 1 + PREVIEW_SCAN)[opt.skip_lines + 1 :]
+    body = [r for r in csv.reader(head, delimiter=opt.delimiter) if r]
+    if layout == "long" and opt.channel_column in columns:
+        at = columns.index(opt.channel_column)
+        sources = list(dict.fromkeys(r[at].strip() for r in body if len(r) > at))
+    else:
+        sources = [c for c in columns if c != opt.time_column]
+    return Preview(layout=layout, columns=columns, rows=body[:rows], sources=sources)
