@@ -78,13 +78,13 @@ def load_private_bytes(data: bytes, passphrase: str, path: Path | None = None) -
     except (ValueError, IndexError):
         raise KeyFileError(
             "cannot open the key: wrong passphrase, or not a testplan key file",
-            file=name,
+            file=path,
             key="--key",
         ) from None
     except Exception:  # the PEM backend raises its own types for some damaged files
         raise KeyFileError("not a readable key file", file=path, key="--key") from None
     if not isinstance(key, Ed25519PrivateKey):
-        raise KeyFileError("not an Ed25519 key", file=name, key="--key")
+        raise KeyFileError("not an Ed25519 key", file=path, key="--key")
     return key
 
 

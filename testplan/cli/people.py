@@ -147,7 +147,7 @@ def list_command(db: DbOption = None) -> None:
 @reports_errors
 def password_command(
     initials: Annotated[str, typer.Argument(help="Initials of a registered person.")],
-    by: Annotated[str, typer.Option("--by", help="Initials of the manager (or approver).")],
+    by: Annotated[str, typer.Option("--by", help="Initials of a manager.")],
     db: DbOption = None,
     quiet: QuietOption = False,
 ) -> None:

@@ -11,17 +11,15 @@ from typing import TYPE_CHECKING
 
 from sqlmodel import Session, col, delete, select
 
-from testplan.errors import RecordError
+from testplan.errors import RecordError, TestplanError
 from testplan.store import audit
-from testplan.store.records import find_person, roles_of
-from testplan.store.tables import LoginFailure, Person, PersonKey, PersonPassword, utc_now
+from testplan.store.identity import MANAGER, Signer, find_person, require_role, signer_key
+from testplan.store.tables import LoginFailure, Person, PersonPassword, utc_now
 
 if TYPE_CHECKING:  # pragma: no cover
     from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
 
 
-# Who may set a person's password: issue 17 brings a manager role; until then an approver.
-PASSWORD_SETTERS = ("manager", "approver")
 MIN_PASSWORD = 10
 # Failures within this window count; from the third on, each waits twice as long.
 FAILURE_WINDOW = dt.timedelta(minutes=15)
@@ -30,20 +28,14 @@ MAX_WAIT_S = 300.0
 
 
 def set_password(session: Session, *, initials: str, password: str, by: str) -> Person:
-    """Set ``initials``' password (argon2id hash) on the word of a manager or approver.
+    """Set ``initials``' password (argon2id hash) on the word of a person who is a manager now.
 
-    Raises RecordError when ``by`` lacks the role, the person is unknown, or the password
-    is shorter than MIN_PASSWORD characters.
+    Raises RecordError when ``by`` lacks the manager role, the person is unknown, or the
+    password is shorter than MIN_PASSWORD characters.
     """
     from argon2 import PasswordHasher
 
-    setter = find_person(session, by, key="--by")
-    if not roles_of(session, setter) & set(PASSWORD_SETTERS):
-        raise RecordError(
-            f"{setter.name} ({setter.initials}) may not set passwords",
-            key="--by",
-            fix=f"ask someone authorised as {' or '.join(PASSWORD_SETTERS)}",
-        )
+    setter = require_role(session, by, MANAGER, key="--by")
     person = find_person(session, initials, key="INITIALS")
     if len(password) < MIN_PASSWORD:
         raise RecordError(
@@ -126,22 +118,9 @@ def log_in_with_key(
 
 
 def _owns(session: Session, person: Person, key: Ed25519PrivateKey) -> bool:
-    from testplan.keys import fingerprint, public_of
-
-    mine = session.exec(select(PersonKey.fingerprint).where(PersonKey.person_id == person.id))
-    return fingerprint(public_of(key)) in set(mine.all())
-
-
-def require_own_key(session: Session, *, initials: str, key: Ed25519PrivateKey) -> Person:
-    """The person, when ``key`` is the private half of a key registered for them.
-
-    Raises RecordError otherwise: a signed act on the bench page is done with one's own key.
-    """
-    person = find_person(session, initials)
-    if not _owns(session, person, key):
-        raise RecordError(
-            f"this key is not registered for {person.initials}",
-            key="key",
-            fix="choose your own key file (`testplan keys register`)",
-        )
-    return person
+    """Whether ``key`` is the person's own enrolled key, active now (not revoked)."""
+    try:
+        signer_key(session, Signer(person.initials, key))
+    except TestplanError:
+        return False
+    return True

@@ -177,8 +177,7 @@ def calibrations_valid(
     cals = calibrations_in_force(session, item, starts.date())
     if not cals:
         raise RecordError(
-            f"{tag} has no calibration on record made by {starts.date()}; it is out of "
-            "service",
+            f"{tag} has no calibration on record made by {starts.date()}; it is out of service",
             key="--equipment",
             fix=f"record one with `testplan equipment calibrate {tag}`",
         )

@@ -28,6 +28,8 @@ class BenchSession:
     """One logged-in person at one browser."""
 
     initials: str
+    # roles held at login, only to show or hide forms; every act is checked in the store
+    # against the roles in force at its own time
     roles: frozenset[str]
     csrf: str = field(default_factory=lambda: secrets.token_urlsafe(32))
     last_seen: float = 0.0

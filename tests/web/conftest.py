@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 from starlette.testclient import TestClient
 
-from tests.store.conftest import PASS, Bench, stock
+from tests.store.conftest import MANAGER, PASS, Bench, stock
 
 RUN = "water-8@ip-verification-1"
 PASSWORDS = {"AK": "tank-side-0417", "JT": "second-pair-of-eyes", "MO": "approver-only-99"}
@@ -29,28 +29,18 @@ class Clock:
 
 
 def stocked(folder: Path, monkeypatch: pytest.MonkeyPatch, url: str | None = None) -> Bench:
-    """The store tests' stock, a password for AK, JT and MO, and registered keys for JT, AK."""
+    """The store tests' stock (founding manager QM; keys for MO, JT), passwords for AK, JT
+    and MO set by the manager, and an enrolled key for AK too."""
     bench = stock(Bench(url or f"sqlite:///{folder / 'lab.db'}", folder))
     monkeypatch.setenv("TESTPLAN_KEY_PASSPHRASE", PASS)
     for who, password in PASSWORDS.items():
         result = bench.runner.invoke(
             __import__("testplan.cli", fromlist=["app"]).app,
-            ["people", "password", who, "--by", "MO", "--db", bench.url, "--quiet"],
+            ["people", "password", who, "--by", MANAGER, "--db", bench.url, "--quiet"],
             input=password + "\n",
         )
         assert result.exit_code == 0, result.stderr
-    for who in ("JT", "AK"):
-        bench.plain("keys", "new", who, "--out", str(folder / f"{who}.pem"))
-        bench(
-            "keys",
-            "register",
-            who,
-            "--public",
-            str(folder / f"{who}.pem.pub"),
-            "--by",
-            "MO",
-            "--quiet",
-        )
+    bench.enrol("AK")
     return bench
 
 

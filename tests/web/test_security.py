@@ -10,7 +10,7 @@ from starlette.testclient import TestClient
 from typer.testing import CliRunner
 
 from testplan.cli import app as cli_app
-from tests.store.conftest import PASS, Bench
+from tests.store.conftest import MANAGER, PASS, Bench
 from tests.web.conftest import DATA, RUN, START_FORM, Clock, csrf_of, log_in
 
 GETS = [
@@ -84,7 +84,7 @@ def test_an_operator_cannot_check_or_sign_and_no_one_signs_with_anothers_key(
     client.post("/logout", data={"csrf": csrf})
     csrf = log_in(client, "JT")
     for key, passphrase, said in (
-        (own_key, PASS, "this key is not registered for JT"),
+        (own_key, PASS, "is the key of Anna Kowal (AK), not of Jo Tran (JT)"),
         ((tmp_path / "JT.pem").read_bytes(), "not the passphrase", "wrong passphrase"),
     ):
         reply = client.post(
@@ -97,23 +97,56 @@ def test_an_operator_cannot_check_or_sign_and_no_one_signs_with_anothers_key(
     assert audit_count(bench) == before
 
 
-def test_only_a_manager_or_approver_sets_passwords(bench: Bench) -> None:
+def test_only_a_manager_sets_passwords(bench: Bench) -> None:
+    for who, name in (("AK", "Anna Kowal"), ("MO", "Mark Osei")):  # an operator, an approver
+        result = CliRunner().invoke(
+            cli_app,
+            ["people", "password", "JT", "--by", who, "--db", bench.url],
+            input="long enough password\n",
+        )
+        assert result.exit_code == 1
+        assert result.stderr.strip().splitlines()[-1] == (
+            f"error: --by: {name} ({who}) is not authorised as manager (a manager grants it "
+            f"with `testplan people grant {who} --role manager`)"
+        )
     result = CliRunner().invoke(
-        cli_app,
-        ["people", "password", "JT", "--by", "AK", "--db", bench.url],
-        input="long enough password\n",
-    )
-    assert result.exit_code == 1
-    assert result.stderr.strip().splitlines()[-1] == (
-        "error: --by: Anna Kowal (AK) may not set passwords "
-        "(ask someone authorised as manager or approver)"
-    )
-    result = CliRunner().invoke(
-        cli_app, ["people", "password", "JT", "--by", "MO", "--db", bench.url], input="short\n"
+        cli_app, ["people", "password", "JT", "--by", MANAGER, "--db", bench.url], input="short\n"
     )
     assert result.exit_code == 1 and "at least 10 are needed" in result.stderr
     hashes = bench.sql("SELECT hash FROM person_password")
     assert len(hashes) == 3 and all(h.startswith("$argon2id$") for (h,) in hashes)
+    setters = bench.sql("SELECT DISTINCT set_by FROM person_password")
+    assert setters == [(MANAGER,)]
+
+
+def test_a_revoked_key_neither_logs_in_nor_signs(
+    client: TestClient, bench: Bench, tmp_path: Path
+) -> None:
+    csrf = log_in(client, "AK")
+    start(client, csrf)
+    client.post(f"/run/{RUN}/finish", data={"csrf": csrf})
+    client.post("/logout", data={"csrf": csrf})
+    csrf = log_in(client, "JT")  # by password, before the revocation
+    bench("keys", "revoke", "JT", "--why", "laptop lost", *bench.signed(MANAGER), "--quiet")
+    before = audit_count(bench)
+    reply = client.post(
+        f"/run/{RUN}/check",
+        data={"csrf": csrf, "passphrase": PASS},
+        files={"key_file": ("JT.pem", (tmp_path / "JT.pem").read_bytes(), "text/plain")},
+    )
+    assert reply.status_code == 400 and 'id="key-error"' in reply.text
+    assert "of JT is revoked from" in reply.text
+    assert bench.sql("SELECT state FROM run WHERE key = :k", k=RUN) == [("finished",)]
+    assert audit_count(bench) == before
+    client.post("/logout", data={"csrf": csrf})
+    page = client.get("/login")
+    reply = client.post(
+        "/login",
+        data={"csrf": csrf_of(page.text), "initials": "JT", "passphrase": PASS},
+        files={"key_file": ("JT.pem", (tmp_path / "JT.pem").read_bytes(), "text/plain")},
+        follow_redirects=False,
+    )
+    assert reply.status_code == 401
 
 
 def test_a_session_expires_after_idle_time(client: TestClient, clock: Clock) -> None:
@@ -252,8 +285,6 @@ def test_a_deviation_is_approved_only_by_an_approver_with_their_own_key(
     client: TestClient, bench: Bench, tmp_path: Path
 ) -> None:
     csrf = log_in(client, "AK")
-    bench.plain("keys", "new", "MO", "--out", str(tmp_path / "MO.pem"))
-    bench("keys", "register", "MO", "--public", str(tmp_path / "MO.pem.pub"), "--quiet")
 
     def deviation(approver: str, key_file: str) -> str:
         reply = client.post(
@@ -270,7 +301,9 @@ def test_a_deviation_is_approved_only_by_an_approver_with_their_own_key(
         return reply.text
 
     assert "is not authorised as approver" in deviation("AK", "AK.pem")  # an operator
-    assert "this key is not registered for MO" in deviation("MO", "AK.pem")
+    refused = deviation("MO", "AK.pem")
+    assert "is the key of Anna Kowal (AK), not of Mark Osei (MO)" in refused
+    assert 'id="approver_key-error"' in refused
     assert bench.sql("SELECT count(*) FROM deviation") == [(0,)]
     assert "deviation recorded, approved by MO" in deviation("MO", "MO.pem")
     assert bench.sql("SELECT count(*) FROM deviation") == [(1,)]

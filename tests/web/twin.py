@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import re
+
 from tests.store.conftest import Bench
 from tests.web.conftest import DATA, RUN
 
@@ -59,7 +61,7 @@ def record_twin(twin: Bench) -> None:
         "--quiet",
     )
     twin("record", "finish", RUN, "--by", "AK", "--quiet")
-    twin("record", "check", RUN, "--by", "JT", "--quiet")
+    twin("record", "check", RUN, *twin.signed("JT"), "--quiet")
 
 
 # What the two stores must hold alike: every recorded value but ids and clock times.
@@ -80,13 +82,37 @@ SAME = {
     "FROM observation o LEFT JOIN attachment a ON a.id = o.attachment_id ORDER BY o.kind",
     "audit": "SELECT action, actor, entity FROM audit ORDER BY chain, seq",
 }
+SIGNED_ACTOR = re.compile(r"(\S+) key ([0-9a-f]+)")
+
+
+def _actor(bench: Bench, actor: str) -> str:
+    """A signed act's actor ``INITIALS key FINGERPRINT`` as ``INITIALS key <own key>`` when
+    the fingerprint is of a key enrolled for that person in this store (each store has its
+    own key pairs); any other actor as it is."""
+    found = SIGNED_ACTOR.fullmatch(actor)
+    if found is None:
+        return actor
+    owners = bench.sql(
+        "SELECT p.initials FROM person_key k JOIN person p ON p.id = k.person_id "
+        "WHERE k.fingerprint LIKE :fp",
+        fp=found.group(2) + "%",
+    )
+    mine = [row[0] for row in owners] == [found.group(1)]
+    return f"{found.group(1)} key <own key>" if mine else actor
+
+
+def _rows(bench: Bench, name: str, query: str) -> list[tuple[object, ...]]:
+    rows = [tuple(row) for row in bench.sql(query)]
+    if name == "audit":
+        rows = [(action, _actor(bench, actor), entity) for action, actor, entity in rows]
+    return rows
 
 
 def differences(web: Bench, twin: Bench) -> dict[str, tuple[object, object]]:
     """Each query whose rows differ between the two stores."""
     out = {}
     for name, query in SAME.items():
-        a, b = web.sql(query), twin.sql(query)
+        a, b = _rows(web, name, query), _rows(twin, name, query)
         if a != b:
             out[name] = (a, b)
     return out
