@@ -98,12 +98,8 @@ def main() -> int:
         csv = long_csv(work / "log.csv", rows=ROWS)
         url = bench_store(work)
         env = {**os.environ, "TESTPLAN_DB": url}
-        subprocess.run(
-            [TESTPLAN, "people", "add", "MO", "--name", "Mark Osei", "--role", "approver", "-q"],
-            check=True, env=env, stdout=subprocess.DEVNULL,
-        )  # fmt: skip
-        subprocess.run(
-            [TESTPLAN, "people", "password", "AK", "--by", "MO", "-q"],
+        subprocess.run(  # QM: the store's founding manager (bench_store)
+            [TESTPLAN, "people", "password", "AK", "--by", "QM", "-q"],
             input=PASSWORD + "\n", text=True, check=True, env=env, stdout=subprocess.DEVNULL,
         )  # fmt: skip
         template = Path(url.removeprefix("sqlite:///"))
