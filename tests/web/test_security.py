@@ -42,6 +42,26 @@ def start(client: TestClient, csrf: str) -> None:
     assert "run started" in reply.text
 
 
+def finished_then_checker(client: TestClient) -> str:
+    """AK starts and finishes the run and logs out; JT logs in (password): JT's CSRF token."""
+    csrf = log_in(client, "AK")
+    start(client, csrf)
+    client.post(f"/run/{RUN}/finish", data={"csrf": csrf})
+    client.post("/logout", data={"csrf": csrf})
+    return log_in(client, "JT")
+
+
+def check_with_jt_key(client: TestClient, csrf: str, folder: Path) -> str:
+    """The data check posted with JT's key file; the refusal page's text (status 400)."""
+    reply = client.post(
+        f"/run/{RUN}/check",
+        data={"csrf": csrf, "passphrase": PASS},
+        files={"key_file": ("JT.pem", (folder / "JT.pem").read_bytes(), "text/plain")},
+    )
+    assert reply.status_code == 400
+    return reply.text
+
+
 def test_every_page_and_action_refuses_without_a_session(client: TestClient, bench: Bench) -> None:
     before = audit_count(bench)
     for path in GETS:
@@ -122,20 +142,11 @@ def test_only_a_manager_sets_passwords(bench: Bench) -> None:
 def test_a_revoked_key_neither_logs_in_nor_signs(
     client: TestClient, bench: Bench, tmp_path: Path
 ) -> None:
-    csrf = log_in(client, "AK")
-    start(client, csrf)
-    client.post(f"/run/{RUN}/finish", data={"csrf": csrf})
-    client.post("/logout", data={"csrf": csrf})
-    csrf = log_in(client, "JT")  # by password, before the revocation
+    csrf = finished_then_checker(client)  # JT logged in before the revocation
     bench("keys", "revoke", "JT", "--why", "laptop lost", *bench.signed(MANAGER), "--quiet")
     before = audit_count(bench)
-    reply = client.post(
-        f"/run/{RUN}/check",
-        data={"csrf": csrf, "passphrase": PASS},
-        files={"key_file": ("JT.pem", (tmp_path / "JT.pem").read_bytes(), "text/plain")},
-    )
-    assert reply.status_code == 400 and 'id="key-error"' in reply.text
-    assert "of JT is revoked from" in reply.text
+    refused = check_with_jt_key(client, csrf, tmp_path)
+    assert 'id="key-error"' in refused and "of JT is revoked from" in refused
     assert bench.sql("SELECT state FROM run WHERE key = :k", k=RUN) == [("finished",)]
     assert audit_count(bench) == before
     client.post("/logout", data={"csrf": csrf})
@@ -147,6 +158,19 @@ def test_a_revoked_key_neither_logs_in_nor_signs(
         follow_redirects=False,
     )
     assert reply.status_code == 401
+
+
+def test_a_role_withdrawn_after_login_no_longer_signs(
+    client: TestClient, bench: Bench, tmp_path: Path
+) -> None:
+    csrf = finished_then_checker(client)  # a checker at login: the page offers the check
+    assert "The data are checked" in client.get(f"/run/{RUN}").text
+    bench("people", "withdraw", "JT", "--role", "checker", "--why", "moved to another lab",
+          *bench.signed(MANAGER), "--quiet")  # fmt: skip
+    before = audit_count(bench)
+    assert "Jo Tran (JT) is not authorised as checker" in check_with_jt_key(client, csrf, tmp_path)
+    assert bench.sql("SELECT state FROM run WHERE key = :k", k=RUN) == [("finished",)]
+    assert audit_count(bench) == before
 
 
 def test_a_session_expires_after_idle_time(client: TestClient, clock: Clock) -> None:
