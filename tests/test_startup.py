@@ -17,6 +17,10 @@ HEAVY = (
     "pint",
     "pydantic",
     "rich",
+    "starlette",
+    "uvicorn",
+    "argon2",
+    "jinja2",
 )
 SAMPLE = Path(__file__).resolve().parents[1] / "sample_campaign" / "flood-gauge-node.toml"
 
@@ -53,6 +57,8 @@ def test_module_entry_point() -> None:
 def test_subcommand_help_imports_nothing_heavy() -> None:
     assert loaded_after(["record", "import", "--help"]) == set()
     assert loaded_after(["store", "check", "--help"]) == set()
+    assert loaded_after(["serve", "--help"]) == set()
+    assert loaded_after(["people", "password", "--help"]) == set()
 
 
 def heavy_loaded_by(code: str) -> set[str]:

@@ -15,6 +15,7 @@ from testplan.cli.init_cmd import init_command
 from testplan.cli.judge_cmd import judge_command
 from testplan.cli.plan import PLAN_EPILOG, plan_command
 from testplan.cli.report_cmd import report_command
+from testplan.cli.serve_cmd import serve_command
 
 app = command_group(
     "Plan, record, judge and report qualification tests of sealed products "
@@ -45,6 +46,7 @@ app.command("report")(report_command)
 app.command("sign")(signoff_cmd.sign_command)
 app.command("amend")(signoff_cmd.amend_command)
 app.command("verify")(signoff_cmd.verify_command)
+app.command("serve")(serve_command)
 app.add_typer(keys_cmd.app, name="keys")
 app.add_typer(record.app, name="record")
 app.add_typer(equipment.app, name="equipment")

@@ -141,3 +141,32 @@ def list_command(db: DbOption = None) -> None:
     with store.reading() as session:
         for person, roles in identity.list_people(session):
             typer.echo(f"{person.initials:<6} {person.name:<28} {', '.join(roles)}")
+
+
+@app.command("password")
+@reports_errors
+def password_command(
+    initials: Annotated[str, typer.Argument(help="Initials of a registered person.")],
+    by: Annotated[str, typer.Option("--by", help="Initials of a manager.")],
+    db: DbOption = None,
+    quiet: QuietOption = False,
+) -> None:
+    """Set a person's bench-page password (asked twice, stored as an argon2id hash).
+
+    Reads the password from the terminal, or one line from standard input when piped.
+
+    Example: testplan people password AK --by MO
+    """
+    import sys
+
+    from testplan.store import logins
+
+    if sys.stdin.isatty():
+        password = typer.prompt("password", hide_input=True, confirmation_prompt=True)
+    else:
+        password = sys.stdin.readline().rstrip("\r\n")
+    store = open_for_writing(db, quiet=quiet)
+    person = store.write(
+        lambda session: logins.set_password(session, initials=initials, password=password, by=by)
+    )
+    typer.echo(f"{person.initials}: bench-page password set by {by}")

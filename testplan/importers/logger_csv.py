@@ -1006,3 +1006,53 @@ def preview(data: LoggerData) -> dict[str, Any]:
     for c in data.dialect.get("unmapped", []):
         warnings.append(f"column {c!r} is not mapped and was not read")
     return {"channels": channels, "dialect": data.dialect, "warnings": warnings}
+
+
+@dataclass(frozen=True)
+class Preview:
+    """The head of a logger file as the reader sees it, for picking the channel map.
+
+    ``sources`` are what a map entry's SOURCE may name: the value columns of a wide file,
+    or the channel names seen in the first ``PREVIEW_SCAN`` lines of a long one.
+    """
+
+    layout: str
+    columns: list[str]
+    rows: list[list[str]]
+    sources: list[str]
+
+
+PREVIEW_SCAN = 2000
+
+
+def preview_logger_bytes(
+    content: bytes, name: str, options: ReadOptions | None = None, rows: int = 8
+) -> Preview:
+    """The header, first ``rows`` rows and the mappable sources of a logger file, found by the
+    same dialect detection as ``read_logger_bytes`` (encoding, delimiter, banner, units rows).
+
+    Raises LoggerFileError when the file cannot be decoded or has no header.
+    """
+    import csv
+
+    from testplan.importers.dialect import decode, delimiter_option, detect
+
+    opt = options or ReadOptions()
+    text, encoding = decode(content, name, opt.encoding)
+    found = detect(text, delimiter_option(opt.delimiter), opt.skip_lines, encoding)
+    columns = found.header
+    if not columns or columns == [""]:
+        raise LoggerFileError("no header line", file=Path(name), key="--skip-lines")
+    layout = opt.layout
+    if layout == "auto":
+        layout = "long" if {opt.channel_column, opt.value_column} <= set(columns) else "wide"
+    first = found.header_line + found.skipped_below
+    head = _head(text, first + PREVIEW_SCAN)[first:]
+    body = [r for r in csv.reader(head, delimiter=found.delimiter) if r]
+    if layout == "long" and opt.channel_column in columns:
+        at = columns.index(opt.channel_column)
+        sources = list(dict.fromkeys(r[at].strip() for r in body if len(r) > at))
+    else:
+        time_names = {opt.time_column or "time", "date", "time"}
+        sources = [c for c in columns if c.strip() and c.strip().lower() not in time_names]
+    return Preview(layout=layout, columns=columns, rows=body[:rows], sources=sources)

@@ -162,6 +162,11 @@ def _later_ingress(session: Session, run: RunRecord) -> dict[str, list[tuple[str
     return dict(out)
 
 
+def series_of(session: Session, run: RunRecord) -> list[J.Series]:
+    """Every logged channel of a run so far, calibration applied (a running run too)."""
+    return _series(session, run)
+
+
 def load_run(session: Session, run: RunRecord) -> J.RunData:
     """Everything recorded for a finished run, in plan units, calibrations applied."""
     assert run.started_at is not None and run.finished_at is not None

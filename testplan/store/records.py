@@ -162,6 +162,47 @@ def calibrations_in_force(
     return latest
 
 
+def calibrations_valid(
+    session: Session, item: Equipment, starts: dt.datetime, ends: dt.datetime
+) -> dict[str, Calibration]:
+    """The calibrations in force at ``starts``, when every one is valid through ``ends``.
+
+    Raises RecordError (key ``--equipment``) naming why the item is out of service.
+    """
+    tag = item.tag
+    cals = calibrations_in_force(session, item, starts.date())
+    if not cals:
+        raise RecordError(
+            f"{tag} has no calibration on record made by {starts.date()}; it is out of service",
+            key="--equipment",
+            fix=f"record one with `testplan equipment calibrate {tag}`",
+        )
+    for channel, cal in sorted(cals.items()):
+        if cal.due_on < ends.date():
+            raise RecordError(
+                f"{tag} is out of service for this run: its {channel} calibration "
+                f"({cal.certificate}) was due {cal.due_on}, and the run is planned to end "
+                f"{ends.date()}",
+                key="--equipment",
+                fix="recalibrate it or use other equipment",
+            )
+    return cals
+
+
+def equipment_for_run(
+    session: Session, starts: dt.datetime, ends: dt.datetime
+) -> list[tuple[Equipment, str | None]]:
+    """Every instrument with None when it may be used from ``starts`` to ``ends``, else why not."""
+    out: list[tuple[Equipment, str | None]] = []
+    for item in session.exec(select(Equipment).order_by(col(Equipment.tag))).all():
+        try:
+            calibrations_valid(session, item, starts, ends)
+            out.append((item, None))
+        except RecordError as err:
+            out.append((item, str(err.args[0]) if err.args else "out of service"))
+    return out
+
+
 def list_equipment(session: Session) -> list[tuple[Equipment, list[Calibration]]]:
     items = session.exec(select(Equipment).order_by(col(Equipment.tag))).all()
     out = []
@@ -582,24 +623,8 @@ def start_run(session: Session, *, run: RunRecord, sheet: StartSheet) -> list[st
     used: list[tuple[Equipment, Calibration]] = []
     for tag in sheet.equipment:
         item = find_equipment(session, tag)
-        cals = calibrations_in_force(session, item, started.date())
-        if not cals:
-            raise RecordError(
-                f"{tag} has no calibration on record made by {started.date()}; it is out of "
-                "service",
-                key="--equipment",
-                fix=f"record one with `testplan equipment calibrate {tag}`",
-            )
-        for channel, cal in sorted(cals.items()):
-            if cal.due_on < ends.date():
-                raise RecordError(
-                    f"{tag} is out of service for this run: its {channel} calibration "
-                    f"({cal.certificate}) was due {cal.due_on}, and the run is planned to end "
-                    f"{ends.date()}",
-                    key="--equipment",
-                    fix="recalibrate it or use other equipment",
-                )
-            used.append((item, cal))
+        cals = calibrations_valid(session, item, started, ends)
+        used.extend((item, cal) for _, cal in sorted(cals.items()))
     warnings = []
     if not 15 <= sheet.ambient_temperature_c <= 35 or not 25 <= sheet.ambient_humidity_pct <= 75:
         warnings.append("lab ambient outside 15-35 degC / 25-75 %RH; recorded as given")

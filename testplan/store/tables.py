@@ -516,4 +516,26 @@ class ReportIssue(SQLModel, table=True):
     issued_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
 
 
+# --- bench page logins (migration 0013) -------------------------------------------------
+
+
+class PersonPassword(SQLModel, table=True):
+    """A person's bench-page password as an argon2id hash (never the password itself)."""
+
+    __tablename__ = "person_password"
+    person_id: uuid.UUID = Field(foreign_key="person.id", primary_key=True)
+    hash: str
+    set_by: str
+    set_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
+
+
+class LoginFailure(SQLModel, table=True):
+    """A failed bench-page login, kept so back-off holds across restarts and servers."""
+
+    __tablename__ = "login_failure"
+    id: uuid.UUID = Field(default_factory=_id, primary_key=True)
+    initials: str = Field(index=True, max_length=16)
+    at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
+
+
 import testplan.store.limits  # noqa: E402, F401  (length limits before every flush)
