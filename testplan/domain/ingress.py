@@ -28,6 +28,9 @@ IPX7_DEPTH_MM = 1000.0
 IPX7_TOP_COVER_MM = 150.0
 IPX7_TALL_MM = 850.0
 IPX7_DURATION_MIN = 30.0
+# The dust test's 8 h end condition applies at the 2 kPa limit; a logged depression within
+# 10 % of it counts as "at the limit" (our reading; the standard gives no tolerance).
+DEPRESSION_AT_LIMIT_KPA = 1.8
 
 TUBE_RADII_MM = (200, 400, 600, 800, 1000, 1200, 1400, 1600)
 TUBE_HOLES = {
@@ -450,6 +453,16 @@ def _dust_procedure(campaign: Campaign) -> Procedure | None:
             ),
             Parameter("duration_max", value=8.0, unit="h", clause="13.5"),
             Parameter(
+                "depression_at_limit",
+                min=DEPRESSION_AT_LIMIT_KPA,
+                max=2.0,
+                unit="kPa",
+                text="the depression the 8 h end condition is judged at: 'at 2 kPa' read as "
+                "within 10 % of the limit",
+                clause="13.5",
+                provenance="computed",
+            ),
+            Parameter(
                 "vacuum_port",
                 text="provide a connection into the enclosure for the vacuum "
                 "pump (a drilled hole or a spare gland), sealed except for the pump line",
@@ -478,12 +491,13 @@ def _dust_procedure(campaign: Campaign) -> Procedure | None:
             ),
             Criterion(
                 f"{pid}.volumes",
-                "air_drawn",
+                "dust_end",
                 ">=",
                 "at_end",
                 unit="L",
                 min=80.0 * vol,
-                text="80 volumes, or 8 h elapsed at 2 kPa, whichever first",
+                text="80 volumes drawn; or, when 40 volumes/h cannot be reached, 8 h at the "
+                f"depression limit ({DEPRESSION_AT_LIMIT_KPA:g} to 2 kPa), whichever first",
                 clause="13.5",
             ),
         ]

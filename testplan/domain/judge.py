@@ -719,6 +719,51 @@ def air_drawn(c: Criterion, run: RunData, rule: Rule) -> list[Verdict]:
     ]
 
 
+def dust_end(c: Criterion, run: RunData, rule: Rule) -> list[Verdict]:
+    """Dust category 1 end condition (IEC 60529 cl. 13.5): at least 80 enclosure volumes
+    drawn, or, when the rate cannot reach 40 volumes/h, the plan's ``duration_max`` (8 h)
+    with the logged depression at its limit (the plan's ``depression_at_limit`` band)."""
+    import numpy as np
+
+    (drawn,) = air_drawn(c, run, rule)
+    params = run.procedure.get("parameters", {})
+    hours_max = params.get("duration_max", {}).get("value")
+    band = params.get("depression_at_limit", {})
+    found = _series(run, "depression")
+    if drawn.outcome == PASS or drawn.measured is None or hours_max is None or not found:
+        return [drawn]
+    s = found[0]
+    keep = _in_run(run, s)
+    t, v = s.t_us[keep], s.value[keep]
+    if len(t) < 2:
+        return [drawn]
+    gap = _gap(s, float(t[0]), float(t[-1]))
+    if gap:
+        return [_no_data(c, f"{drawn.detail}; depression: {gap}")]
+    at = (v >= band.get("min", -math.inf)) & (v <= band.get("max", math.inf))
+    both = at[1:] & at[:-1]
+    hours = float(np.sum(np.diff(t)[both])) / 3600e6
+    outcome, _, _, _ = decide(hours, float(hours_max), None, s.interval_us / 3600e6, rule)
+    if outcome == FAIL:
+        return [drawn]
+    return [
+        _verdict(
+            c,
+            outcome=outcome,
+            measured=drawn.measured,
+            uncertainty=drawn.uncertainty,
+            coverage_k=drawn.coverage_k,
+            window_start=_utc(float(t[0])),
+            window_end=_utc(float(t[-1])),
+            detail=f"{fmt(drawn.measured, c.unit)} drawn, below {c.shown_limits()}, so the "
+            f"rate stayed under 40 volumes/h; {fmt(hours, 'h')} with the depression at its "
+            f"limit ({fmt(band.get('min'))} to {fmt(band.get('max'), 'kPa')}) against "
+            f"{fmt(float(hours_max), 'h')}: the test ended on time",
+            sources=[*drawn.sources, s.source],
+        )
+    ]
+
+
 def cycles_completed(c: Criterion, run: RunData, rule: Rule) -> list[Verdict]:
     """Salt-mist cycles: the recorded exposure time over the cycle length."""
     length = run.procedure.get("parameters", {}).get("cycle_length", {}).get("value")
@@ -1075,6 +1120,7 @@ JUDGES: dict[str, Callable[[Criterion, RunData, Rule], list[Verdict]]] = {
     "water_specimen_difference": water_specimen_difference,
     "duration": duration,
     "air_drawn": air_drawn,
+    "dust_end": dust_end,
     "cycles_completed": cycles_completed,
     "cycles_reached": cycles_reached,
     "torque_at_cycle0": torque,
