@@ -68,7 +68,7 @@ def test_temperature_points_and_differences() -> None:
 
 
 def test_leak_rate_units() -> None:
-    # source: 1 mbar*l/s = 0.1 Pa*m^3/s (reference sheet, unit conversions)
+    # source: 1 mbar*l/s = 0.1 Pa*m^3/s (from memory; 100 Pa x 1e-3 m^3/s)
     assert parse_key("0.1 Pa*m^3/s", "acceptance.leak_rate_max") == pytest.approx(1.0)
 
 

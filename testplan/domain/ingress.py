@@ -889,8 +889,10 @@ def _water_params(
 def ipx8_lowest_depth_m(campaign: Campaign) -> float:
     """Declared IPX8 depth at the lowest point, in metres of the declared water.
 
-    Raises PlanningError when depth or duration is missing, or the declared condition is
-    no more severe than this specimen's own IPX7 (depth max(1 m, H + 0.15 m), 30 min).
+    Raises PlanningError when depth or duration is missing, the declared depth leaves part
+    of the specimen out of the water, or the declared condition is less severe than this
+    specimen's own IPX7 (depth max(1 m, H + 0.15 m), 30 min) in depth or in duration, or no
+    more severe in either (IEC 60529 cl. 14.2.8).
     """
     t = campaign.target
     if t.immersion_depth_m is None:
@@ -907,15 +909,39 @@ def ipx8_lowest_depth_m(campaign: Campaign) -> float:
         )
     height_m = campaign.device.height_mm / 1000.0
     lowest = t.immersion_depth_m + (height_m if t.depth_reference == "highest point" else 0.0)
-    ipx7_low = max(1.0, height_m + 0.15)
+    if lowest <= height_m + 1e-9:
+        raise PlanningError(
+            f"numeral 8 must immerse the whole specimen: {lowest:.3g} m at the lowest point "
+            f"leaves its highest point ({height_m:.3g} m up) at or above the surface",
+            key="target.immersion_depth",
+            fix=f"declare more than {height_m:.3g} m at the lowest point, or set "
+            'depth_reference = "highest point"',
+        )
+    ipx7_low_mm, ipx7_top_mm = ipx7_depths_mm(campaign.device.height_mm)
+    ipx7_low = ipx7_low_mm / 1000.0
     pressure_low = fresh_depth_for_sea_m(lowest) if t.service_water == "sea" else lowest
-    if pressure_low <= ipx7_low + 1e-9 and t.immersion_duration_h <= 0.5 + 1e-9:
+    hours = t.immersion_duration_h
+    deeper = pressure_low > ipx7_low + 1e-9
+    longer = hours > 0.5 + 1e-9
+    shallower = pressure_low < ipx7_low - 1e-9
+    shorter = hours < 0.5 - 1e-9
+    less_cover = (
+        campaign.device.height_mm >= IPX7_TALL_MM
+        and (pressure_low - height_m) * 1000.0 < ipx7_top_mm - 1e-6
+    )
+    if shallower or shorter or less_cover or not (deeper or longer):
         raise PlanningError(
             f"numeral 8 must be more severe than this specimen's IPX7 ({ipx7_low:.3g} m at the "
-            f"lowest point for 30 min); declared {lowest:.3g} m for "
-            f"{t.immersion_duration_h * 60:.3g} min",
-            key="target.immersion_depth",
-            fix="declare a greater depth or a longer duration",
+            f"lowest point, {ipx7_top_mm / 1000.0:.3g} m over the highest, for 30 min) in depth "
+            f"and in duration; declared {pressure_low:.3g} m at the lowest point for "
+            f"{hours * 60:.3g} min",
+            key=(
+                "target.immersion_duration"
+                if shorter and not shallower
+                else "target.immersion_depth"
+            ),
+            fix=f"declare at least {ipx7_low:.3g} m at the lowest point and at least 30 min, "
+            "with more of one of them",
         )
     return lowest
 
