@@ -185,10 +185,58 @@ def test_spray_nozzle_minimum_five_minutes_and_tube_size() -> None:
     p = plan(
         device={"surface_area": "0.24 m^2", "largest_dimension": "700 mm"}, target={"code": "IPX4"}
     )
-    assert value(p, "water-4", "nozzle_time") == 5.0
     assert value(p, "water-4", "tube_radius") == 400
     assert value(p, "water-4", "open_holes") == 25
     assert value(p, "water-4", "tube_flow") == pytest.approx(1.75)
+    nozzle = plan(
+        device={"surface_area": "0.24 m^2"}, target={"code": "IPX4", "spray_method": "nozzle"}
+    )
+    assert value(nozzle, "water-4", "nozzle_time") == 5.0
+    assert value(nozzle, "water-4", "nozzle_flow") == 10.0
+
+
+@pytest.mark.parametrize(("largest", "radius"), [("800 mm", 600), ("700 mm", 400), ("290 mm", 200)])
+def test_oscillating_tube_clears_the_specimen(largest: str, radius: int) -> None:
+    # source: IEC 60529 cl. 14.2.3 a), standard radii 200-1600 mm in 200 mm steps (from
+    # memory); the 50 mm clearance is common practice (no source)
+    p = plan(device={"largest_dimension": largest}, target={"code": "IPX3"})
+    w = p.procedure("water-3")
+    assert w.parameter("tube_radius").value == radius
+    assert radius - float(largest.split()[0]) / 2 >= 50.0
+    assert "50 mm" in (w.parameter("tube_radius").text or "")
+
+
+def test_tube_needs_no_surface_area_but_the_largest_dimension() -> None:
+    # source: IEC 60529 cl. 14.2.3 a), tube duration 10 min whatever the area
+    p = plan(device={"surface_area": None}, target={"code": "IPX4"})
+    assert value(p, "water-4", "duration") == 10.0
+    with pytest.raises(PlanningError) as info:
+        plan(device={"largest_dimension": None}, target={"code": "IPX4"})
+    assert info.value.key == "device.largest_dimension"
+    with pytest.raises(PlanningError) as info:
+        plan(device={"surface_area": None}, target={"code": "IPX4", "spray_method": "nozzle"})
+    assert info.value.key == "device.surface_area"
+
+
+def test_specimen_too_large_for_any_tube_plans_the_nozzle() -> None:
+    # source: IEC 60529 cl. 14.2.4 b), hand-held nozzle 10 l/min, 1 min/m^2, at least 5 min
+    p = plan(
+        device={"largest_dimension": "3.2 m", "surface_area": "8 m^2"}, target={"code": "IPX4"}
+    )
+    w = p.procedure("water-4")
+    assert "nozzle" in (w.parameter("method").text or "")
+    assert w.parameter("nozzle_time").value == 8.0
+    assert not any(c.quantity == "tube_flow" for c in w.criteria)
+    with pytest.raises(PlanningError) as info:
+        plan(device={"largest_dimension": "3.2 m"}, target={"code": "IPX4", "spray_method": "tube"})
+    assert info.value.key == "target.spray_method"
+
+
+def test_ipx9_method_needs_the_largest_dimension() -> None:
+    # source: IEC 60529 cl. 14.2.9, the method depends on the largest dimension (250 mm)
+    with pytest.raises(PlanningError) as info:
+        plan(device={"largest_dimension": None}, target={"code": "IPX9"})
+    assert info.value.key == "device.largest_dimension"
 
 
 def test_dust_extraction_sized_to_enclosure() -> None:
@@ -287,7 +335,7 @@ def test_letter_adds_access_probe() -> None:
 
 def test_ipx9_small_enclosure_turntable() -> None:
     # source: IEC 60529 cl. 14.2.9: under 250 mm, 4 angles x 30 s, 80 degC, 15 l/min
-    p = plan(device={"height": "120 mm"}, target={"code": "IPX9"})
+    p = plan(device={"height": "120 mm", "largest_dimension": "120 mm"}, target={"code": "IPX9"})
     w = p.procedure("water-9")
     assert w.parameter("duration").value == 2.0
     assert w.parameter("water_temperature").value == 80.0
