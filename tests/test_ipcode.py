@@ -56,6 +56,8 @@ def test_valid_codes(
         ("IP4XD", "redundant"),
         ("IP2XA", "redundant"),
         ("IP6X/IP5X", "disagree on the first numeral"),
+        ("IPX6/IPX6K", "different tests"),  # source: IEC 60529 cl. 14.2.6; ISO 20653 6K
+        ("IPX6K/IPX6", "different tests"),
         ("IPX5/IPX6", "cumulative"),  # source: IEC 60529 cl. 6 (up to 6 cumulative)
         ("IP65SM", "alphabetical"),
         ("IP65MS", "exclude each other"),

@@ -38,6 +38,14 @@ def test_bad_heights_name_the_key(text: str, message: str) -> None:
     assert info.value.key == "device.height"
 
 
+def test_an_area_takes_an() -> None:
+    # common practice (no source): English indefinite article before a vowel
+    with pytest.raises(QuantityError) as info:
+        parse_key("5 kg", "device.surface_area")
+    assert "is not an area" in info.value.one_line()
+    assert "give an area" in info.value.one_line()
+
+
 def test_bare_number_from_toml_is_refused() -> None:
     with pytest.raises(QuantityError, match="quantity string"):
         parse_key(310, "device.height")

@@ -178,6 +178,12 @@ def parse_ip_code(text: str) -> IPCode:
     for p in parts:
         for s in p.seconds:
             if s in seconds:
+                if (s in seconds_k) != (s in p.seconds_k):
+                    raise IPCodeError(
+                        f"{whole!r}: {s} (IEC 60529) and {s}K (ISO 20653) are different tests "
+                        "that this campaign cannot hold both of",
+                        fix=f"plan IPX{s} and IPX{s}K in separate campaign files",
+                    )
                 raise IPCodeError(f"{whole!r}: second numeral {s} is listed twice")
             seconds.append(s)
         seconds_k |= p.seconds_k
