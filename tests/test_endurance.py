@@ -255,3 +255,19 @@ def test_modulus_provenance_follows_the_table() -> None:
     assert mid.parameter("shear_modulus").provenance == "from memory"
     assert end.parameter("shear_modulus").provenance == "confirmed"
     assert end.parameter("shear_modulus").value == 82.7
+
+
+def test_long_weibull_extension_notes_the_shape_and_the_alternatives() -> None:
+    # source: reliability Reliability_testing.sample_size_no_failures (warns above 5 lifetimes)
+    lib = reliability_lib()
+    p = knob(rig_specimens=1, weibull_shape=1.0, checkpoints=[0])
+    note = next(n for n in p.notes if "rated lives" in n)
+    assert "carries the demonstration" in note
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        for lives in (1, 2, 3, 5):
+            expected = lib.sample_size_no_failures(
+                reliability=0.9, CI=0.9, lifetimes=lives, weibull_shape=1.0, print_results=False
+            )
+            assert f"{expected} specimens at {lives:g} rated lives" in note
+    assert not any("rated lives" in n for n in knob().notes)

@@ -12,7 +12,11 @@ from dataclasses import dataclass
 from testplan.domain.campaign import Endurance
 from testplan.domain.cautions import cautions
 from testplan.domain.plan import Criterion, Parameter, Procedure, Provenance
-from testplan.domain.stats import cycles_to_demonstrate, success_run_sample_size
+from testplan.domain.stats import (
+    cycles_to_demonstrate,
+    specimens_for_length,
+    success_run_sample_size,
+)
 from testplan.errors import PlanningError
 
 # Shear modulus G of spring materials, GPa, by wire diameter where it varies.
@@ -155,6 +159,26 @@ def design_check(item: Endurance, key: str) -> DesignCheck | None:
 def slug(text: str) -> str:
     """Lower-case id fragment: 'mode selector knob' -> 'mode-selector-knob'."""
     return re.sub(r"[^a-z0-9]+", "-", text.lower()).strip("-") or "item"
+
+
+LONG_EXTENSION_LIVES = 5.0  # the `reliability` package warns above this many lifetimes
+
+
+def _long_extension_note(item: Endurance, cycles: int) -> tuple[str, ...]:
+    """A note when each specimen runs several rated lives: the assumed shape carries it."""
+    lives = cycles / item.rated_cycles
+    if lives <= LONG_EXTENSION_LIVES:
+        return ()
+    r, c, beta, f = item.reliability, item.confidence, item.weibull_shape, item.allowed_failures
+    options = ", ".join(
+        f"{specimens_for_length(r, c, lives_each, beta, f)} specimens at {lives_each:g} rated lives"
+        for lives_each in (1.0, 2.0, 3.0, LONG_EXTENSION_LIVES)
+    )
+    return (
+        f"Each specimen runs {lives:.3g} rated lives (above {LONG_EXTENSION_LIVES:g}): the "
+        f"assumed Weibull shape ({item.weibull_shape:g}) carries the demonstration, not the "
+        f"test. Alternatives for the same R and C: {options}.",
+    )
 
 
 def endurance_procedure(item: Endurance) -> Procedure:
@@ -377,6 +401,7 @@ def endurance_procedure(item: Endurance) -> Procedure:
         notes=(
             "The specimens afterwards go on to the ingress retest of their seals.",
             "Demonstrated reliability from the cycles reached is an interpretation.",
+            *_long_extension_note(item, cycles),
         ),
         duration_h=rig_hours,
         order=60,

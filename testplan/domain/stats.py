@@ -97,6 +97,18 @@ def length_ratio(
     return math.exp(log_ratio)
 
 
+def specimens_for_length(
+    reliability: float, confidence: float, lifetimes: float, shape: float, failures: int = 0
+) -> int:
+    """Specimens needed when each runs ``lifetimes`` rated lives: n * L^beta >= need, rounded up."""
+    _check(reliability, confidence)
+    if failures == 0:
+        need = math.log(1.0 - confidence) / math.log(reliability)
+    else:
+        need = chi2_quantile_even(confidence, 2 * failures + 2) / (2.0 * -math.log(reliability))
+    return max(1, math.ceil(need / float(lifetimes**shape) - 1e-9))
+
+
 def cycles_to_demonstrate(
     rated_cycles: int,
     reliability: float,
