@@ -320,7 +320,13 @@ def endurance_procedure(item: Endurance) -> Procedure:
                 value=check.shear_modulus_gpa,
                 unit="GPa",
                 provenance=check.modulus_source,
-                text=item.spring_material or None,
+                text=(
+                    f"{item.spring_material}, {item.spring_wire_mm:g} mm wire: spring-wire G "
+                    "table by wire size; published tables differ by a few percent for some "
+                    "steels, declare shear_modulus to use the wire maker's figure"
+                    if item.spring_material and item.shear_modulus_gpa is None
+                    else "declared"
+                ),
             ),
             Parameter(
                 "spring_rate",
