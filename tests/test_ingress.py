@@ -413,3 +413,13 @@ def test_every_planned_procedure_has_cautions_and_the_plan_the_precedence_note()
     assert "take precedence" in p.closing_note
     assert "current edition" in p.closing_note
     assert campaign().device.height_mm == 310.0
+
+
+def test_spray_method_other_than_tube_or_nozzle_is_one_line() -> None:
+    # common practice (no source): a choice key names its allowed values
+    from testplan.errors import CampaignFileError
+
+    with pytest.raises(CampaignFileError) as info:
+        campaign(target={"code": "IPX4", "spray_method": "hose"})
+    assert info.value.key == "target.spray_method"
+    assert "'tube', 'nozzle'" in info.value.one_line()
