@@ -1071,66 +1071,10 @@ def retest(c: Criterion, run: RunData, rule: Rule) -> list[Verdict]:
     return out
 
 
-DUST_LIMIT_SHARE = 0.9  # depression "at the limit": at least 90 % of depression_max
-
-
-def dust_end(c: Criterion, run: RunData, rule: Rule) -> list[Verdict]:
-    """Dust category 1 end condition (IEC 60529 cl. 13.4-13.5): 80 volumes drawn, or 8 h.
-
-    The 8 h alternative counts only the longest unbroken stretch of logged depression held
-    at the limit (from DUST_LIMIT_SHARE of ``depression_max`` up to it), the sign that the
-    extraction rate could not be reached at no more than the limit.
-    """
-    import numpy as np
-
-    first = air_drawn(c, run, rule)
-    if first and first[0].outcome in (PASS, COND_PASS):
-        return first
-    params = run.procedure.get("parameters", {})
-    limit = params.get("depression_max", {}).get("value")
-    hours_needed = params.get("duration_max", {}).get("value")
-    found = _series(run, "depression")
-    if limit is None or hours_needed is None or not found:
-        return first
-    s = in_unit(found[0], "kPa")
-    keep = _in_run(run, s)
-    t, v = s.t_us[keep], s.value[keep]
-    if len(t) < 2:
-        return first
-    ok = (v >= DUST_LIMIT_SHARE * limit) & (v <= limit)
-    if not ok.any():
-        return first
-    breaks = np.ones(len(ok), dtype=bool)
-    breaks[1:] = (~ok[1:]) | (~ok[:-1]) | (np.diff(t) > GAP_FACTOR * s.interval_us)
-    seg = np.cumsum(breaks)[ok]
-    held = t[ok]
-    first_t = np.full(int(seg.max()) + 1, np.iinfo(np.int64).max)
-    last_t = np.zeros(int(seg.max()) + 1, dtype=np.int64)
-    np.minimum.at(first_t, seg, held)
-    np.maximum.at(last_t, seg, held)
-    best = float(np.max(np.where(last_t >= first_t, last_t - first_t, 0)))
-    hours = best / 3600e6
-    if hours + 1e-9 < float(hours_needed):
-        return first
-    drawn = first[0].detail if first else ""
-    return [
-        _verdict(
-            c,
-            outcome=PASS,
-            detail=f"{hours:.3g} h unbroken at {DUST_LIMIT_SHARE * limit:.3g}-{limit:.3g} kPa "
-            f"depression (the {float(hours_needed):.3g} h end condition); air drawn: {drawn}",
-            sources=[s.source],
-            window_start=_utc(float(t[0])),
-            window_end=_utc(float(t[-1])),
-        )
-    ]
-
-
 JUDGES: dict[str, Callable[[Criterion, RunData, Rule], list[Verdict]]] = {
     "water_specimen_difference": water_specimen_difference,
     "duration": duration,
     "air_drawn": air_drawn,
-    "dust_end": dust_end,
     "cycles_completed": cycles_completed,
     "cycles_reached": cycles_reached,
     "torque_at_cycle0": torque,
