@@ -72,6 +72,7 @@ SECTIONS: dict[str, dict[str, bool]] = {
         "immersion_duration": False,
         "service_water": False,
         "test_implied": False,
+        "spray_method": False,
     },
     "acceptance": {
         "water_ingress": False,
@@ -391,6 +392,11 @@ def _read_target(r: _Reader) -> Target:
         immersion_duration_h=duration,
         service_water=r.choice(sec, "service_water", p, ["fresh", "sea"], "fresh"),
         test_implied=test_implied,
+        spray_method=(
+            r.choice(sec, "spray_method", p, ["tube", "nozzle"], "tube")
+            if "spray_method" in sec
+            else None
+        ),
     )
 
 

@@ -21,6 +21,7 @@ laboratory = "Test Lab"
 [device]
 name = "Enclosure"
 height = "310 mm"
+largest_dimension = "310 mm"
 surface_area = "0.24 m^2"
 enclosure_volume = "2.4 L"
 

@@ -36,7 +36,7 @@ def run_plan(runner: CliRunner, path: Path) -> tuple[int, str, str]:
         ),
         (
             {"device.surface_area": None, "target.code": '"IP65"'},
-            "device.surface_area: IPX3 needs the external surface area",
+            "device.surface_area: IPX5 needs the external surface area",
         ),
         ({"target.service_water": '"salt"'}, "target.service_water: 'salt' is not one of"),
         ({"target.test_implied": '"yes"'}, "target.test_implied: expected true or false"),

@@ -66,7 +66,7 @@ def reliability_lib():  # type: ignore[no-untyped-def]
 
 @pytest.mark.parametrize(
     ("r", "c", "n"),
-    # source: reference sheet 4, success-run examples (reliability library docs)
+    # source: reliability Reliability_testing.sample_size_no_failures, n = ln(1-C)/ln(R)
     [(0.9, 0.9, 22), (0.95, 0.9, 45), (0.9, 0.95, 29), (0.999, 0.95, 2995)],
 )
 def test_success_run(r: float, c: float, n: int) -> None:
@@ -116,7 +116,8 @@ def test_lipson_worked_example() -> None:
 
 
 def test_test_cycles_worked_example() -> None:
-    # source: reference sheet 4, t0=1e5, R=0.9, C=0.9, n=10, beta=2 -> about 1.48e5 (from memory)
+    # source: Weibull success run solved for t (from memory):
+    # t0=1e5, R=0.9, C=0.9, n=10, beta=2 -> about 1.48e5
     assert cycles_to_demonstrate(100000, 0.9, 0.9, 10, 2.0) == pytest.approx(148000, rel=0.005)
 
 
@@ -132,7 +133,8 @@ def test_chi2_quantile_matches_scipy(p: float, dof: int) -> None:
 def test_one_failure_chi_squared_form() -> None:
     from scipy.stats import chi2
 
-    # source: reference sheet 4, R=0.9, C=0.9, beta=1, L=1, r=1 -> 36.9 -> 37 units (from memory)
+    # source: chi-squared Weibull form (from memory):
+    # R=0.9, C=0.9, beta=1, L=1, r=1 -> 36.9 -> 37 units
     need = chi2.ppf(0.9, 4) / (2 * -math.log(0.9))
     assert need == pytest.approx(36.9, abs=0.05)
     assert length_ratio(0.9, 0.9, 37, 1.0, failures=1) <= 1.0 < length_ratio(0.9, 0.9, 36, 1.0, 1)
@@ -157,11 +159,12 @@ def test_plan_statistics_for_the_knob() -> None:
 
 
 def test_spring_rate_hand_worked() -> None:
-    # source: k = G d^4 / (8 D^3 n_a) (reference sheet 5); hand-worked: G = 69 GPa,
+    # source: k = G d^4 / (8 D^3 n_a) (helical spring rate); hand-worked: G = 69 GPa,
     # d = 0.8 mm, D = 5 mm, n_a = 7 -> 69000 * 0.4096 / (8 * 125 * 7) = 28262.4 / 7000 N/mm
     assert spring_rate_n_per_mm(69.0, 0.8, 5.0, 7) == pytest.approx(4.0374857, rel=1e-7)
-    # source: spring-design table of G by wire size: stainless 302 69.0 GPa; music wire
-    # 81.7 GPa for 0.8-1.6 mm (from memory; the sheet confirms only the 82.7 and 80.0 ends)
+    # source: Shigley, Mechanical Engineering Design, G by wire size: stainless 302
+    # 69.0 GPa; music wire 81.7 GPa for 0.8-1.6 mm (from memory; the 82.7 and 80.0 ends
+    # are in the textbook table)
     assert shear_modulus_gpa("music wire", 1.0) == 81.7
     assert shear_modulus_gpa("Stainless  302", 0.8) == 69.0
     with pytest.raises(PlanningError, match="unknown spring material"):
@@ -238,7 +241,7 @@ def test_endurance_records_failure_cycles_and_seal_retest() -> None:
 
 
 def test_modulus_provenance_follows_the_table() -> None:
-    # source: spring-design table of G by wire size; the sheet confirms the 82.7 and 80.0 ends
+    # source: Shigley, Mechanical Engineering Design, G of A228 music wire: 82.7 and 80.0 ends
     # of music wire only, so a 1.0 mm wire's 81.7 GPa is from memory
     spec = dict(
         friction_radius="3.7 mm",
@@ -252,3 +255,20 @@ def test_modulus_provenance_follows_the_table() -> None:
     assert mid.parameter("shear_modulus").provenance == "from memory"
     assert end.parameter("shear_modulus").provenance == "confirmed"
     assert end.parameter("shear_modulus").value == 82.7
+    assert "published tables differ" in (mid.parameter("shear_modulus").text or "")
+
+
+def test_long_weibull_extension_notes_the_shape_and_the_alternatives() -> None:
+    # source: reliability Reliability_testing.sample_size_no_failures (warns above 5 lifetimes)
+    lib = reliability_lib()
+    p = knob(rig_specimens=1, weibull_shape=1.0, checkpoints=[0])
+    note = next(n for n in p.notes if "rated lives" in n)
+    assert "carries the demonstration" in note
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        for lives in (1, 2, 3, 5):
+            expected = lib.sample_size_no_failures(
+                reliability=0.9, CI=0.9, lifetimes=lives, weibull_shape=1.0, print_results=False
+            )
+            assert f"{expected} specimens at {lives:g} rated lives" in note
+    assert not any("rated lives" in n for n in knob().notes)

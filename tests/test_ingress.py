@@ -32,7 +32,7 @@ def test_ipx7_depths_from_height(height: str, lowest: float, highest: float) -> 
 
 
 def test_ipx7_water_temperature_rule() -> None:
-    # source: IEC 60529 cl. 14.2.7, water within 5 K of the specimen (reference sheet 1.4)
+    # source: IEC 60529 cl. 14.2.7, water within 5 K of the specimen
     c = next(
         c
         for c in plan(target={"code": "IPX7"}).procedure("water-7").criteria
@@ -51,7 +51,7 @@ def test_ipx8_fresh_declared_at_lowest_point() -> None:
     p = plan(target={"code": "IPX8", "immersion_depth": "2 m", "immersion_duration": "72 h"})
     assert value(p, "water-8", "lowest_point_depth") == pytest.approx(2000.0)
     assert value(p, "water-8", "duration") == 72.0
-    # source: p = rho g h, 998.2 kg/m^3 fresh water at 20 degC (reference sheet 5)
+    # source: hydrostatics p = rho g h, 998.2 kg/m^3 fresh water at 20 degC (handbook value)
     assert value(p, "water-8", "pressure_at_lowest_point") == pytest.approx(19.578, abs=1e-3)
 
 
@@ -69,7 +69,7 @@ def test_ipx8_declared_at_highest_point_adds_the_height() -> None:
 
 
 def test_hydrostatic_worked_values() -> None:
-    # source: reference sheet 5 worked values (1 m fresh 9.79 kPa, 1 m sea 10.05 kPa, 10 m 97.9)
+    # source: p = rho g h arithmetic (from memory): 1 m fresh 9.79 kPa, 1 m sea 10.05, 10 m 97.9
     assert hydrostatic_kpa(1.0) == pytest.approx(9.79, abs=0.005)
     assert hydrostatic_kpa(1.0, 1025.0) == pytest.approx(10.05, abs=0.005)
     assert hydrostatic_kpa(10.0) == pytest.approx(97.9, abs=0.05)
@@ -101,13 +101,56 @@ def test_ipx8_sea_water_matches_gsw_pressure() -> None:
     [("1 m", "30 min", "310 mm"), ("0.5 m", "20 min", "310 mm"), ("1.05 m", "30 min", "900 mm")],
 )
 def test_ipx8_no_more_severe_than_ipx7_is_refused(depth: str, duration: str, height: str) -> None:
-    # source: IEC 60529 cl. 14.2.8, conditions more severe than numeral 7 (reference sheet 1.4)
+    # source: IEC 60529 cl. 14.2.8, conditions more severe than numeral 7
     with pytest.raises(PlanningError, match="more severe") as info:
         plan(
             device={"height": height},
             target={"code": "IPX8", "immersion_depth": depth, "immersion_duration": duration},
         )
     assert info.value.key == "target.immersion_depth"
+
+
+def test_ipx8_must_immerse_the_whole_specimen() -> None:
+    # source: IEC 60529 cl. 14.2.8, continuous immersion of the whole enclosure
+    with pytest.raises(PlanningError, match="immerse the whole specimen") as info:
+        plan(
+            device={"height": "1.2 m"},
+            target={"code": "IPX8", "immersion_depth": "1.1 m", "immersion_duration": "72 h"},
+        )
+    assert info.value.key == "target.immersion_depth"
+    assert "depth_reference" in info.value.one_line()
+
+
+@pytest.mark.parametrize(
+    ("height", "depth", "duration", "ipx7", "key"),
+    [
+        ("310 mm", "0.8 m", "72 h", "1 m at the lowest point", "target.immersion_depth"),
+        ("310 mm", "3 m", "20 min", "for 30 min", "target.immersion_duration"),
+        ("1.2 m", "1.3 m", "72 h", "1.35 m at the lowest point", "target.immersion_depth"),
+    ],
+)
+def test_ipx8_less_severe_than_ipx7_in_depth_or_duration_is_refused(
+    height: str, depth: str, duration: str, ipx7: str, key: str
+) -> None:
+    # source: IEC 60529 cl. 14.2.7 and 14.2.8, numeral 8 more severe than numeral 7
+    with pytest.raises(PlanningError, match="more severe") as info:
+        plan(
+            device={"height": height},
+            target={"code": "IPX8", "immersion_depth": depth, "immersion_duration": duration},
+        )
+    line = info.value.one_line()
+    assert ipx7 in line
+    assert info.value.key == key
+    assert "\n" not in line
+
+
+def test_ipx8_tall_specimen_keeps_ipx7_cover_over_the_top() -> None:
+    # source: IEC 60529 cl. 14.2.7, 850 mm or taller: highest point 150 mm under
+    p = plan(
+        device={"height": "1.2 m"},
+        target={"code": "IPX8", "immersion_depth": "1.35 m", "immersion_duration": "72 h"},
+    )
+    assert value(p, "water-8", "highest_point_depth") == pytest.approx(150.0)
 
 
 def test_ipx8_longer_than_ipx7_at_same_depth_is_accepted() -> None:
@@ -122,7 +165,7 @@ def test_ipx8_missing_duration() -> None:
 
 
 def test_jets_time_from_surface_area() -> None:
-    # source: IEC 60529 cl. 14.2.5/14.2.6, 1 min/m^2, at least 3 min (reference sheet 1.4)
+    # source: IEC 60529 cl. 14.2.5/14.2.6, 1 min/m^2, at least 3 min
     small = plan(device={"surface_area": "0.24 m^2"}, target={"code": "IPX6"})
     large = plan(device={"surface_area": "4.5 m^2"}, target={"code": "IPX5"})
     assert value(small, "water-6", "duration") == 3.0
@@ -137,14 +180,63 @@ def test_jets_time_from_surface_area() -> None:
 
 
 def test_spray_nozzle_minimum_five_minutes_and_tube_size() -> None:
-    # source: IEC 60529 cl. 14.2.4, nozzle 1 min/m^2 minimum 5 min; tube holes table (garmin/at)
+    # source: IEC 60529 cl. 14.2.4, nozzle 1 min/m^2 minimum 5 min; IPX4 tube open holes per
+    # radius, IEC 60529 cl. 14.2.4 a)
     p = plan(
         device={"surface_area": "0.24 m^2", "largest_dimension": "700 mm"}, target={"code": "IPX4"}
     )
-    assert value(p, "water-4", "nozzle_time") == 5.0
     assert value(p, "water-4", "tube_radius") == 400
     assert value(p, "water-4", "open_holes") == 25
     assert value(p, "water-4", "tube_flow") == pytest.approx(1.75)
+    nozzle = plan(
+        device={"surface_area": "0.24 m^2"}, target={"code": "IPX4", "spray_method": "nozzle"}
+    )
+    assert value(nozzle, "water-4", "nozzle_time") == 5.0
+    assert value(nozzle, "water-4", "nozzle_flow") == 10.0
+
+
+@pytest.mark.parametrize(("largest", "radius"), [("800 mm", 600), ("700 mm", 400), ("290 mm", 200)])
+def test_oscillating_tube_clears_the_specimen(largest: str, radius: int) -> None:
+    # source: IEC 60529 cl. 14.2.3 a), standard radii 200-1600 mm in 200 mm steps (from
+    # memory); the 50 mm clearance is common practice (no source)
+    p = plan(device={"largest_dimension": largest}, target={"code": "IPX3"})
+    w = p.procedure("water-3")
+    assert w.parameter("tube_radius").value == radius
+    assert radius - float(largest.split()[0]) / 2 >= 50.0
+    assert "50 mm" in (w.parameter("tube_radius").text or "")
+
+
+def test_tube_needs_no_surface_area_but_the_largest_dimension() -> None:
+    # source: IEC 60529 cl. 14.2.3 a), tube duration 10 min whatever the area
+    p = plan(device={"surface_area": None}, target={"code": "IPX4"})
+    assert value(p, "water-4", "duration") == 10.0
+    with pytest.raises(PlanningError) as info:
+        plan(device={"largest_dimension": None}, target={"code": "IPX4"})
+    assert info.value.key == "device.largest_dimension"
+    with pytest.raises(PlanningError) as info:
+        plan(device={"surface_area": None}, target={"code": "IPX4", "spray_method": "nozzle"})
+    assert info.value.key == "device.surface_area"
+
+
+def test_specimen_too_large_for_any_tube_plans_the_nozzle() -> None:
+    # source: IEC 60529 cl. 14.2.4 b), hand-held nozzle 10 l/min, 1 min/m^2, at least 5 min
+    p = plan(
+        device={"largest_dimension": "3.2 m", "surface_area": "8 m^2"}, target={"code": "IPX4"}
+    )
+    w = p.procedure("water-4")
+    assert "nozzle" in (w.parameter("method").text or "")
+    assert w.parameter("nozzle_time").value == 8.0
+    assert not any(c.quantity == "tube_flow" for c in w.criteria)
+    with pytest.raises(PlanningError) as info:
+        plan(device={"largest_dimension": "3.2 m"}, target={"code": "IPX4", "spray_method": "tube"})
+    assert info.value.key == "target.spray_method"
+
+
+def test_ipx9_method_needs_the_largest_dimension() -> None:
+    # source: IEC 60529 cl. 14.2.9, the method depends on the largest dimension (250 mm)
+    with pytest.raises(PlanningError) as info:
+        plan(device={"largest_dimension": None}, target={"code": "IPX9"})
+    assert info.value.key == "device.largest_dimension"
 
 
 def test_dust_extraction_sized_to_enclosure() -> None:
@@ -190,7 +282,7 @@ def test_dust_category_1_needs_the_volume() -> None:
 
 
 def test_dual_code_planned_and_implied() -> None:
-    # source: IEC 60529 cl. 6: up to 6 cumulative; 7-9 need dual coding (reference sheet 1.1)
+    # source: IEC 60529 cl. 6: up to 6 cumulative; 7-9 need dual coding
     p = plan(target={"code": "IP66/IP68", "immersion_depth": "2 m", "immersion_duration": "72 h"})
     status = {pr.id: pr.status for pr in p.procedures}
     assert status["water-6"] == status["water-8"] == status["dust-6"] == "planned"
@@ -231,7 +323,7 @@ def test_probe_forces_with_tolerance() -> None:
     assert probe.parameter("force").value == 30.0
     force = next(c for c in probe.criteria if c.quantity == "probe_force")
     assert (force.min, force.max) == (27.0, 33.0)
-    # source: IEC 60529 cl. 12, jointed test finger 10 N (reference sheet 1.6)
+    # source: IEC 60529 cl. 12, jointed test finger 10 N
     assert p.procedure("probe-access-b").parameter("force").value == 10.0
 
 
@@ -243,7 +335,7 @@ def test_letter_adds_access_probe() -> None:
 
 def test_ipx9_small_enclosure_turntable() -> None:
     # source: IEC 60529 cl. 14.2.9: under 250 mm, 4 angles x 30 s, 80 degC, 15 l/min
-    p = plan(device={"height": "120 mm"}, target={"code": "IPX9"})
+    p = plan(device={"height": "120 mm", "largest_dimension": "120 mm"}, target={"code": "IPX9"})
     w = p.procedure("water-9")
     assert w.parameter("duration").value == 2.0
     assert w.parameter("water_temperature").value == 80.0
@@ -256,7 +348,7 @@ def test_ipx9_large_enclosure_area_time() -> None:
 
 
 def test_k_forms() -> None:
-    # source: ISO 20653 IPX9K: 14-16 l/min, 80 degC, 4 positions x 30 s (reference sheet 2)
+    # source: ISO 20653 IPX9K: 14-16 l/min, 80 degC, 4 positions x 30 s
     p = plan(target={"code": "IPX9K"})
     w = p.procedure("water-9k")
     assert w.standard == "ISO 20653"
@@ -321,3 +413,13 @@ def test_every_planned_procedure_has_cautions_and_the_plan_the_precedence_note()
     assert "take precedence" in p.closing_note
     assert "current edition" in p.closing_note
     assert campaign().device.height_mm == 310.0
+
+
+def test_spray_method_other_than_tube_or_nozzle_is_one_line() -> None:
+    # common practice (no source): a choice key names its allowed values
+    from testplan.errors import CampaignFileError
+
+    with pytest.raises(CampaignFileError) as info:
+        campaign(target={"code": "IPX4", "spray_method": "hose"})
+    assert info.value.key == "target.spray_method"
+    assert "'tube', 'nozzle'" in info.value.one_line()

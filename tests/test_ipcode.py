@@ -25,10 +25,10 @@ from testplan.errors import IPCodeError
         ("IPX8", None, (8,), None, ""),
         ("IP6X", 6, (), None, ""),
         ("IP20C", 2, (0,), "C", ""),  # source: IEC 60529 cl. 7, letter above the numeral
-        ("IPXXB", None, (), "B", ""),  # source: IEC 60529 cl. 7 (reference sheet 1.6)
-        ("IP23CS", 2, (3,), "C", "S"),  # source: IEC 60529 cl. 7 example (reference sheet 1.6)
+        ("IPXXB", None, (), "B", ""),  # source: IEC 60529 cl. 7
+        ("IP23CS", 2, (3,), "C", "S"),  # source: IEC 60529 cl. 7 example
         ("IP54MW", 5, (4,), None, "MW"),
-        ("IP6K9K", 6, (9,), None, ""),  # source: ISO 20653 K-forms (reference sheet 2)
+        ("IP6K9K", 6, (9,), None, ""),  # source: ISO 20653 K-forms
         ("IP5K4K", 5, (4,), None, ""),
         ("IPX6K", None, (6,), None, ""),
         ("IPX9", None, (9,), None, ""),  # source: IEC 60529 Amd 2 (2013) added numeral 9
@@ -51,14 +51,19 @@ def test_valid_codes(
     [
         ("IP7X", "first numeral runs from 0 to 6"),  # source: IEC 60529 cl. 5
         ("IP6", "both characteristic numerals"),  # source: IEC 60529 cl. 4
-        ("IPX-8", "no hyphen"),  # source: IEC 60529 cl. 4 (reference sheet 1.1)
+        ("IPX-8", "no hyphen"),  # source: IEC 60529 cl. 4
         ("IP54D", "redundant"),  # source: IEC 60529 cl. 7 (letter only above the numeral)
         ("IP4XD", "redundant"),
         ("IP2XA", "redundant"),
         ("IP6X/IP5X", "disagree on the first numeral"),
+        ("IPX6/IPX6K", "different tests"),  # source: IEC 60529 cl. 14.2.6; ISO 20653 6K
+        ("IPX6K/IPX6", "different tests"),
         ("IPX5/IPX6", "cumulative"),  # source: IEC 60529 cl. 6 (up to 6 cumulative)
         ("IP65SM", "alphabetical"),
         ("IP65MS", "exclude each other"),
+        ("IP6XM", "no water numeral"),  # source: IEC 60529 cl. 8, M and S describe the water test
+        ("IP60S", "no water numeral"),  # source: IEC 60529 cl. 8
+        ("IP6XS/IP6XS", "no water numeral"),  # source: IEC 60529 cl. 8
         ("IP65Q", "not a supplementary letter"),
         ("IP3K4", "5K and 6K"),
         ("IPX5K", "4K, 6K and 9K"),
@@ -74,8 +79,13 @@ def test_refused_codes_give_the_reason(text: str, reason: str) -> None:
     assert reason in info.value.one_line()
 
 
+def test_water_letter_with_a_water_numeral_in_a_dual_marking_is_accepted() -> None:
+    # source: IEC 60529 cl. 8, M/S apply to the water test of the marking
+    assert parse_ip_code("IP6X/IPX7M").supplementary == "M"
+
+
 def test_first_numerals_imply_lower_ones() -> None:
-    # source: IEC 60529 cl. 5, first numerals cumulative (reference sheet 1.1)
+    # source: IEC 60529 cl. 5, first numerals cumulative
     assert parse_ip_code("IP5X").implied_first() == [1, 2, 3, 4]
     assert parse_ip_code("IP5X").access_letter == "D"  # 5 and 6 also keep the 1.0 mm wire out
 

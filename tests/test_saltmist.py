@@ -83,6 +83,11 @@ def test_ka_and_b117() -> None:
     assert ka.edition == "Ed. 4 (2021)"  # type: ignore[attr-defined]
     b117 = salt(standard="ASTM B117", test_method="B117", duration="500 h")
     assert b117.duration_h == 500.0  # type: ignore[attr-defined]
+    # source: ASTM B117-19, cabinet 35 +/-2 degC (from memory)
+    assert b117.edition == "B117-19"  # type: ignore[attr-defined]
+    band = b117.parameter("cabinet_temperature")  # type: ignore[attr-defined]
+    assert (band.min, band.max, band.provenance) == (33.0, 37.0, "from memory")
+    assert "B117-19" in band.text
     odd = salt(standard="IEC 60068-2-11", test_method="Ka", duration="100 h")
     assert any("not one of the usual" in n for n in odd.notes)  # type: ignore[attr-defined]
 

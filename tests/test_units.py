@@ -38,6 +38,14 @@ def test_bad_heights_name_the_key(text: str, message: str) -> None:
     assert info.value.key == "device.height"
 
 
+def test_an_area_takes_an() -> None:
+    # common practice (no source): English indefinite article before a vowel
+    with pytest.raises(QuantityError) as info:
+        parse_key("5 kg", "device.surface_area")
+    assert "is not an area" in info.value.one_line()
+    assert "give an area" in info.value.one_line()
+
+
 def test_bare_number_from_toml_is_refused() -> None:
     with pytest.raises(QuantityError, match="quantity string"):
         parse_key(310, "device.height")
@@ -68,7 +76,7 @@ def test_temperature_points_and_differences() -> None:
 
 
 def test_leak_rate_units() -> None:
-    # source: 1 mbar*l/s = 0.1 Pa*m^3/s (reference sheet, unit conversions)
+    # source: 1 mbar*l/s = 0.1 Pa*m^3/s (from memory; 100 Pa x 1e-3 m^3/s)
     assert parse_key("0.1 Pa*m^3/s", "acceptance.leak_rate_max") == pytest.approx(1.0)
 
 

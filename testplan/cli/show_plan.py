@@ -58,16 +58,30 @@ def _bullets(title: str, items: Sequence[str], mark: str, width: int) -> list[st
     return lines
 
 
+FROM_MEMORY_SHOWN = "to verify against the current edition"
+
+
+def cite(clause: str) -> str:
+    """``cl. 14.2.4`` for a clause number; a table, figure or method reference as written."""
+    text = clause.strip().rstrip(".:")
+    return f"cl. {text}" if text[:1].isdigit() else text
+
+
+def shown_provenance(provenance: str) -> str:
+    """How a parameter's provenance reads on the plan (the JSON keeps the stored value)."""
+    return FROM_MEMORY_SHOWN if provenance == "from memory" else provenance
+
+
 def _procedure(proc: Procedure, width: int) -> list[str]:
     edition = f" {proc.edition}" if proc.edition else ""
-    clause = f", cl. {proc.clause}" if proc.clause else ""
+    clause = f", {cite(proc.clause)}" if proc.clause else ""
     flags = " | destructive: opens the specimen" if proc.destructive else ""
     head = f"{proc.id}  {proc.code}  {proc.title}"
     lines = ["=" * width, head, f"{proc.standard}{edition}{clause}{flags}", "-" * width]
     rows = []
     for p in proc.parameters:
-        source = p.provenance + (
-            f", cl. {p.clause}" if p.clause and p.clause != proc.clause else ""
+        source = shown_provenance(p.provenance) + (
+            f", {cite(p.clause)}" if p.clause and p.clause != proc.clause else ""
         )
         rows.append((p.name, p.shown(), source))
     names = [r[0] for r in rows]

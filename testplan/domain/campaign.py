@@ -46,13 +46,6 @@ class Device:
     cable: str | None = None
     gland_torque_nm: float | None = None
 
-    @property
-    def largest_mm(self) -> float:
-        """Largest overall dimension, falling back to the height when not declared."""
-        return (
-            self.largest_dimension_mm if self.largest_dimension_mm is not None else self.height_mm
-        )
-
 
 @dataclass(frozen=True)
 class Target:
@@ -64,6 +57,7 @@ class Target:
     immersion_duration_h: float | None = None
     service_water: str = "fresh"
     test_implied: bool = False
+    spray_method: str | None = None
 
 
 @dataclass(frozen=True)

@@ -12,7 +12,11 @@ from dataclasses import dataclass
 from testplan.domain.campaign import Endurance
 from testplan.domain.cautions import cautions
 from testplan.domain.plan import Criterion, Parameter, Procedure, Provenance
-from testplan.domain.stats import cycles_to_demonstrate, success_run_sample_size
+from testplan.domain.stats import (
+    cycles_to_demonstrate,
+    specimens_for_length,
+    success_run_sample_size,
+)
 from testplan.errors import PlanningError
 
 # Shear modulus G of spring materials, GPa, by wire diameter where it varies.
@@ -157,6 +161,26 @@ def slug(text: str) -> str:
     return re.sub(r"[^a-z0-9]+", "-", text.lower()).strip("-") or "item"
 
 
+LONG_EXTENSION_LIVES = 5.0  # the `reliability` package warns above this many lifetimes
+
+
+def _long_extension_note(item: Endurance, cycles: int) -> tuple[str, ...]:
+    """A note when each specimen runs several rated lives: the assumed shape carries it."""
+    lives = cycles / item.rated_cycles
+    if lives <= LONG_EXTENSION_LIVES:
+        return ()
+    r, c, beta, f = item.reliability, item.confidence, item.weibull_shape, item.allowed_failures
+    options = ", ".join(
+        f"{specimens_for_length(r, c, lives_each, beta, f)} specimens at {lives_each:g} rated lives"
+        for lives_each in (1.0, 2.0, 3.0, LONG_EXTENSION_LIVES)
+    )
+    return (
+        f"Each specimen runs {lives:.3g} rated lives (above {LONG_EXTENSION_LIVES:g}): the "
+        f"assumed Weibull shape ({item.weibull_shape:g}) carries the demonstration, not the "
+        f"test. Alternatives for the same R and C: {options}.",
+    )
+
+
 def endurance_procedure(item: Endurance) -> Procedure:
     """The cycle-endurance procedure for one item, with statistics and design check."""
     key = f"endurance[{item.index}]"
@@ -296,7 +320,13 @@ def endurance_procedure(item: Endurance) -> Procedure:
                 value=check.shear_modulus_gpa,
                 unit="GPa",
                 provenance=check.modulus_source,
-                text=item.spring_material or None,
+                text=(
+                    f"{item.spring_material}, {item.spring_wire_mm:g} mm wire: spring-wire G "
+                    "table by wire size; published tables differ by a few percent for some "
+                    "steels, declare shear_modulus to use the wire maker's figure"
+                    if item.spring_material and item.shear_modulus_gpa is None
+                    else "declared"
+                ),
             ),
             Parameter(
                 "spring_rate",
@@ -377,6 +407,7 @@ def endurance_procedure(item: Endurance) -> Procedure:
         notes=(
             "The specimens afterwards go on to the ingress retest of their seals.",
             "Demonstrated reliability from the cycles reached is an interpretation.",
+            *_long_extension_note(item, cycles),
         ),
         duration_h=rig_hours,
         order=60,

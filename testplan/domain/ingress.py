@@ -109,17 +109,31 @@ def spray_minutes(area_m2: float, minimum_min: float) -> float:
     return max(minimum_min, area_m2 * 1.0)
 
 
-def tube_radius_mm(largest_mm: float) -> int:
-    """Smallest standard oscillating-tube radius that clears half the specimen's size."""
+TUBE_CLEARANCE_MM = 50.0
+
+
+def tube_radius_mm(largest_mm: float) -> int | None:
+    """Smallest standard oscillating-tube radius that clears the specimen, or None.
+
+    The specimen sits at the tube's centre, so the radius must exceed half its largest
+    dimension; the rule applied is a clearance of at least TUBE_CLEARANCE_MM (50 mm)
+    between the specimen and the tube (IEC 60529 cl. 14.2.3 a) puts the holes close to,
+    but not touching, the specimen). None when even the 1600 mm tube does not clear it.
+    """
     for radius in TUBE_RADII_MM:
-        if radius >= largest_mm / 2.0:
+        if radius - largest_mm / 2.0 >= TUBE_CLEARANCE_MM - 1e-9:
             return radius
-    raise PlanningError(
-        f"the specimen ({largest_mm:.0f} mm) is too large for the largest oscillating tube "
-        "(1600 mm radius)",
-        key="device.largest_dimension",
-        fix="use the hand-held spray nozzle method",
-    )
+    return None
+
+
+def _need_largest(device: Device, code: str, why: str) -> float:
+    if device.largest_dimension_mm is None:
+        raise PlanningError(
+            f"{code} needs the specimen's largest overall dimension to {why}",
+            key="device.largest_dimension",
+            fix='add largest_dimension = "310 mm" to [device]',
+        )
+    return device.largest_dimension_mm
 
 
 def _water_state(device: Device, code: IPCode, immersion: bool) -> tuple[str, ...]:
@@ -665,94 +679,7 @@ def _water_params(
         ]
         return p, c, 10.0 / 60.0, f"14.2.{n}"
     if n in (3, 4):
-        radius = tube_radius_mm(device.largest_mm)
-        holes = TUBE_HOLES[n][TUBE_RADII_MM.index(radius)]
-        area = _need_area(device, f"IPX{n}")
-        nozzle_min = spray_minutes(area, 5.0)
-        p += [
-            Parameter(
-                "method",
-                text="oscillating tube (a); the hand-held spray nozzle (b) is the "
-                "alternative below",
-                clause=f"14.2.{n} a)",
-            ),
-            Parameter(
-                "tube_radius",
-                value=radius,
-                unit="mm",
-                provenance="computed",
-                text="smallest standard radius holding the specimen; holes within about "
-                "200 mm of it",
-            ),
-            Parameter("hole_diameter", value=0.4, unit="mm"),
-            Parameter(
-                "open_holes",
-                value=holes,
-                unit=None,
-                provenance="confirmed" if n == 4 else "from memory",
-                text="over the whole 180 deg arc" if n == 4 else "within +/-60 deg of vertical",
-            ),
-            Parameter("flow_per_hole", value=0.07, unit="L/min", tolerance="+/-5 %"),
-            Parameter(
-                "tube_flow",
-                value=round(holes * 0.07, 4),
-                unit="L/min",
-                tolerance="+/-5 %",
-                provenance="computed",
-            ),
-            Parameter(
-                "swing",
-                value=360.0 if n == 4 else 120.0,
-                unit="deg",
-                text="+/-180 deg, almost a full turn" if n == 4 else "+/-60 deg",
-            ),
-            Parameter(
-                "double_swing_time",
-                value=12.0 if n == 4 else 4.0,
-                unit="s",
-                provenance="from memory" if n == 4 else "confirmed",
-            ),
-            Parameter("duration", value=10.0, unit="min"),
-            Parameter(
-                "nozzle_flow", value=10.0, unit="L/min", tolerance="+/-5 %", clause=f"14.2.{n} b)"
-            ),
-            Parameter(
-                "nozzle_pressure",
-                min=50.0,
-                max=150.0,
-                unit="kPa",
-                text="set to give the flow",
-                clause=f"14.2.{n} b)",
-            ),
-            Parameter(
-                "nozzle_shield",
-                text="counterbalanced shield fitted; spray up to 60 deg from vertical"
-                if n == 3
-                else "shield removed; spray from all practicable directions",
-                clause=f"14.2.{n} b)",
-            ),
-            Parameter(
-                "nozzle_time",
-                value=nozzle_min,
-                unit="min",
-                provenance="computed",
-                text="1 min per m^2 of surface, at least 5 min",
-                clause=f"14.2.{n} b)",
-            ),
-        ]
-        c += [
-            Criterion(
-                f"{pid}.flow",
-                "tube_flow",
-                "between",
-                "per_period",
-                unit="L/min",
-                min=round(holes * 0.07 * 0.95, 6),
-                max=round(holes * 0.07 * 1.05, 6),
-            ),
-            Criterion(f"{pid}.duration", "duration", ">=", "at_end", unit="min", min=10.0),
-        ]
-        return p, c, max(10.0, nozzle_min) / 60.0, f"14.2.{n}"
+        return _spray(n, campaign)
     if n in (5, 6):
         area = _need_area(device, f"IPX{n}")
         flow = 12.5 if n == 5 else 100.0
@@ -846,7 +773,7 @@ def _water_params(
     if n == 8:
         return _ipx8(campaign)
     if n == 9:
-        small = device.largest_mm < 250.0
+        small = _need_largest(device, "IPX9", "choose its method") < 250.0
         p += [
             Parameter("nozzle", text="fan-jet nozzle; the verified jet-force distribution governs"),
             Parameter("water_temperature", value=80.0, unit="degC", tolerance="+/-5 K"),
@@ -900,11 +827,131 @@ def _water_params(
     raise PlanningError(f"second numeral {n} has no water test")  # pragma: no cover
 
 
+def _spray(n: int, campaign: Campaign) -> tuple[list[Parameter], list[Criterion], float, str]:
+    """IPX3/IPX4 by the oscillating tube (a) or the hand-held nozzle (b), as the lab chose.
+
+    With no ``target.spray_method`` the tube is planned where a standard tube clears the
+    specimen, else the nozzle. The tube needs the largest dimension; the nozzle the area.
+    """
+    device = campaign.device
+    pid = f"water-{n}"
+    chosen = campaign.target.spray_method
+    radius: int | None = None
+    too_large = ""
+    if chosen != "nozzle":
+        largest = _need_largest(device, f"IPX{n} by the oscillating tube", "size the tube")
+        radius = tube_radius_mm(largest)
+        if radius is None:
+            if chosen == "tube":
+                raise PlanningError(
+                    f"the specimen ({largest:.0f} mm) does not clear the largest oscillating "
+                    f"tube (1600 mm radius, {TUBE_CLEARANCE_MM:.0f} mm clearance)",
+                    key="target.spray_method",
+                    fix='set spray_method = "nozzle" in [target]',
+                )
+            too_large = (
+                f"; the specimen ({largest:.0f} mm) does not clear the largest standard tube"
+            )
+    if radius is not None:
+        holes = TUBE_HOLES[n][TUBE_RADII_MM.index(radius)]
+        p = [
+            Parameter(
+                "method",
+                text="oscillating tube"
+                + (" (declared)" if chosen == "tube" else " (spray_method not declared)"),
+                clause=f"14.2.{n} a)",
+            ),
+            Parameter(
+                "tube_radius",
+                value=radius,
+                unit="mm",
+                provenance="computed",
+                text=f"smallest standard radius leaving at least {TUBE_CLEARANCE_MM:.0f} mm "
+                "between the specimen, at the tube centre, and the tube; holes within about "
+                "200 mm of it",
+            ),
+            Parameter("hole_diameter", value=0.4, unit="mm"),
+            Parameter(
+                "open_holes",
+                value=holes,
+                unit=None,
+                provenance="confirmed" if n == 4 else "from memory",
+                text="over the whole 180 deg arc" if n == 4 else "within +/-60 deg of vertical",
+            ),
+            Parameter("flow_per_hole", value=0.07, unit="L/min", tolerance="+/-5 %"),
+            Parameter(
+                "tube_flow",
+                value=round(holes * 0.07, 4),
+                unit="L/min",
+                tolerance="+/-5 %",
+                provenance="computed",
+            ),
+            Parameter(
+                "swing",
+                value=360.0 if n == 4 else 120.0,
+                unit="deg",
+                text="+/-180 deg, almost a full turn" if n == 4 else "+/-60 deg",
+            ),
+            Parameter(
+                "double_swing_time",
+                value=12.0 if n == 4 else 4.0,
+                unit="s",
+                provenance="from memory" if n == 4 else "confirmed",
+            ),
+            Parameter("duration", value=10.0, unit="min"),
+        ]
+        c = [
+            Criterion(
+                f"{pid}.flow",
+                "tube_flow",
+                "between",
+                "per_period",
+                unit="L/min",
+                min=round(holes * 0.07 * 0.95, 6),
+                max=round(holes * 0.07 * 1.05, 6),
+            ),
+            Criterion(f"{pid}.duration", "duration", ">=", "at_end", unit="min", min=10.0),
+        ]
+        return p, c, 10.0 / 60.0, f"14.2.{n} a)"
+    area = _need_area(device, f"IPX{n} by the hand-held nozzle")
+    minutes = spray_minutes(area, 5.0)
+    p = [
+        Parameter(
+            "method",
+            text="hand-held spray nozzle" + (" (declared)" if chosen == "nozzle" else too_large),
+            clause=f"14.2.{n} b)",
+        ),
+        Parameter("nozzle_flow", value=10.0, unit="L/min", tolerance="+/-5 %"),
+        Parameter("nozzle_pressure", min=50.0, max=150.0, unit="kPa", text="set to give the flow"),
+        Parameter(
+            "nozzle_shield",
+            text="counterbalanced shield fitted; spray up to 60 deg from vertical"
+            if n == 3
+            else "shield removed; spray from all practicable directions",
+        ),
+        Parameter(
+            "nozzle_time",
+            value=minutes,
+            unit="min",
+            provenance="computed",
+            text="1 min per m^2 of surface, at least 5 min",
+        ),
+        Parameter("duration", value=minutes, unit="min", provenance="computed"),
+    ]
+    c = [
+        Criterion(f"{pid}.flow", "flow", "between", "per_period", unit="L/min", min=9.5, max=10.5),
+        Criterion(f"{pid}.duration", "duration", ">=", "at_end", unit="min", min=minutes),
+    ]
+    return p, c, minutes / 60.0, f"14.2.{n} b)"
+
+
 def ipx8_lowest_depth_m(campaign: Campaign) -> float:
     """Declared IPX8 depth at the lowest point, in metres of the declared water.
 
-    Raises PlanningError when depth or duration is missing, or the declared condition is
-    no more severe than this specimen's own IPX7 (depth max(1 m, H + 0.15 m), 30 min).
+    Raises PlanningError when depth or duration is missing, the declared depth leaves part
+    of the specimen out of the water, or the declared condition is less severe than this
+    specimen's own IPX7 (depth max(1 m, H + 0.15 m), 30 min) in depth or in duration, or no
+    more severe in either (IEC 60529 cl. 14.2.8).
     """
     t = campaign.target
     if t.immersion_depth_m is None:
@@ -921,15 +968,39 @@ def ipx8_lowest_depth_m(campaign: Campaign) -> float:
         )
     height_m = campaign.device.height_mm / 1000.0
     lowest = t.immersion_depth_m + (height_m if t.depth_reference == "highest point" else 0.0)
-    ipx7_low = max(1.0, height_m + 0.15)
+    if lowest <= height_m + 1e-9:
+        raise PlanningError(
+            f"numeral 8 must immerse the whole specimen: {lowest:.3g} m at the lowest point "
+            f"leaves its highest point ({height_m:.3g} m up) at or above the surface",
+            key="target.immersion_depth",
+            fix=f"declare more than {height_m:.3g} m at the lowest point, or set "
+            'depth_reference = "highest point"',
+        )
+    ipx7_low_mm, ipx7_top_mm = ipx7_depths_mm(campaign.device.height_mm)
+    ipx7_low = ipx7_low_mm / 1000.0
     pressure_low = fresh_depth_for_sea_m(lowest) if t.service_water == "sea" else lowest
-    if pressure_low <= ipx7_low + 1e-9 and t.immersion_duration_h <= 0.5 + 1e-9:
+    hours = t.immersion_duration_h
+    deeper = pressure_low > ipx7_low + 1e-9
+    longer = hours > 0.5 + 1e-9
+    shallower = pressure_low < ipx7_low - 1e-9
+    shorter = hours < 0.5 - 1e-9
+    less_cover = (
+        campaign.device.height_mm >= IPX7_TALL_MM
+        and (pressure_low - height_m) * 1000.0 < ipx7_top_mm - 1e-6
+    )
+    if shallower or shorter or less_cover or not (deeper or longer):
         raise PlanningError(
             f"numeral 8 must be more severe than this specimen's IPX7 ({ipx7_low:.3g} m at the "
-            f"lowest point for 30 min); declared {lowest:.3g} m for "
-            f"{t.immersion_duration_h * 60:.3g} min",
-            key="target.immersion_depth",
-            fix="declare a greater depth or a longer duration",
+            f"lowest point, {ipx7_top_mm / 1000.0:.3g} m over the highest, for 30 min) in depth "
+            f"and in duration; declared {pressure_low:.3g} m at the lowest point for "
+            f"{hours * 60:.3g} min",
+            key=(
+                "target.immersion_duration"
+                if shorter and not shallower
+                else "target.immersion_depth"
+            ),
+            fix=f"declare at least {ipx7_low:.3g} m at the lowest point and at least 30 min, "
+            "with more of one of them",
         )
     return lowest
 

@@ -165,7 +165,7 @@ def parse_ip_code(text: str) -> IPCode:
         )
     parts = [_parse_segment(seg, whole) for seg in whole.split("/")]
     if len(parts) == 1:
-        return parts[0]
+        return _water_letters_need_water(parts[0], whole)
     firsts = {p.first for p in parts if p.first is not None}
     if len(firsts) > 1:
         raise IPCodeError(
@@ -178,6 +178,12 @@ def parse_ip_code(text: str) -> IPCode:
     for p in parts:
         for s in p.seconds:
             if s in seconds:
+                if (s in seconds_k) != (s in p.seconds_k):
+                    raise IPCodeError(
+                        f"{whole!r}: {s} (IEC 60529) and {s}K (ISO 20653) are different tests "
+                        "that this campaign cannot hold both of",
+                        fix=f"plan IPX{s} and IPX{s}K in separate campaign files",
+                    )
                 raise IPCodeError(f"{whole!r}: second numeral {s} is listed twice")
             seconds.append(s)
         seconds_k |= p.seconds_k
@@ -195,7 +201,7 @@ def parse_ip_code(text: str) -> IPCode:
         raise IPCodeError(
             f"{whole!r}: the codes of a dual marking disagree on supplementary letters"
         )
-    return IPCode(
+    code = IPCode(
         text=whole,
         first=first,
         first_k=first_k,
@@ -204,3 +210,16 @@ def parse_ip_code(text: str) -> IPCode:
         letter=next(iter(letters)) if letters else None,
         supplementary=next(iter(supps)) if supps else "",
     )
+    return _water_letters_need_water(code, whole)
+
+
+def _water_letters_need_water(code: IPCode, whole: str) -> IPCode:
+    """Refuse M or S (water test moving/still, IEC 60529 cl. 8) on a code with no water test."""
+    water = [ch for ch in code.supplementary if ch in "MS"]
+    if water and not any(code.seconds):
+        raise IPCodeError(
+            f"{whole!r}: supplementary letter {water[0]} describes the water test, but the code "
+            "has no water numeral",
+            fix=f"give a second numeral 1-9 or drop {water[0]}",
+        )
+    return code

@@ -54,6 +54,7 @@ def campaign_summary(c: Campaign) -> dict[str, Any]:
             "immersion_duration_h": t.immersion_duration_h,
             "service_water": t.service_water,
             "test_implied": t.test_implied,
+            "spray_method": t.spray_method,
         },
     }
 

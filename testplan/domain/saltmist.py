@@ -76,6 +76,8 @@ class Continuous:
     clause: str
     collection_h: float = 16.0
     provenance: str = "confirmed"
+    temperature_note: str = "continuous exposure"
+    temperature_provenance: Provenance = "confirmed"
 
 
 RINSE_IEC = (
@@ -142,7 +144,7 @@ CONTINUOUS: dict[tuple[str, str], Continuous] = {
     ),
     ("ASTM B117", "B117"): Continuous(
         "ASTM B117",
-        "current edition (check)",
+        "B117-19",
         "B117",
         "5 parts NaCl to 95 parts water by mass, ASTM D1193 type IV water",
         (6.5, 7.2),
@@ -151,6 +153,9 @@ CONTINUOUS: dict[tuple[str, str], Continuous] = {
         (),
         RINSE_ISO,
         "cabinet conditions",
+        temperature_note="continuous exposure; 35 +/-2 degC as in ASTM B117-19, the edition "
+        "this band follows (older editions used 35 +1.1/-1.7 degC)",
+        temperature_provenance="from memory",
     ),
 }
 STANDARDS = ("IEC 60068-2-52", "IEC 60068-2-11", "ISO 9227", "ASTM B117")
@@ -409,7 +414,8 @@ def salt_mist_procedure(sm: SaltMist, functional_check: str | None = None) -> Pr
                 min=spec.temperature[0],
                 max=spec.temperature[1],
                 unit="degC",
-                text="continuous exposure",
+                text=spec.temperature_note,
+                provenance=spec.temperature_provenance,
             ),
             *base_params,
             Parameter(

@@ -67,6 +67,13 @@ def chi2_quantile_even(probability: float, dof: int) -> float:
 MAX_LENGTH_RATIO = 1e9
 
 
+def _specimen_lives(reliability: float, confidence: float, failures: int) -> float:
+    """n * L^beta the demonstration needs: ln(1-C)/ln R, or chi2(C; 2r+2) / (2 * -ln R)."""
+    if failures == 0:
+        return math.log(1.0 - confidence) / math.log(reliability)
+    return chi2_quantile_even(confidence, 2 * failures + 2) / (2.0 * -math.log(reliability))
+
+
 def length_ratio(
     reliability: float, confidence: float, specimens: int, shape: float, failures: int = 0
 ) -> float:
@@ -82,10 +89,7 @@ def length_ratio(
         raise PlanningError(f"the Weibull shape must be greater than zero, got {shape}")
     if failures < 0:
         raise PlanningError("allowed failures cannot be negative")
-    if failures == 0:
-        need = math.log(1.0 - confidence) / math.log(reliability)
-    else:
-        need = chi2_quantile_even(confidence, 2 * failures + 2) / (2.0 * -math.log(reliability))
+    need = _specimen_lives(reliability, confidence, failures)
     log_ratio = math.log(need / specimens) / shape
     if log_ratio > math.log(MAX_LENGTH_RATIO):
         raise PlanningError(
@@ -95,6 +99,15 @@ def length_ratio(
             fix="check the Weibull shape, or test more specimens",
         )
     return math.exp(log_ratio)
+
+
+def specimens_for_length(
+    reliability: float, confidence: float, lifetimes: float, shape: float, failures: int = 0
+) -> int:
+    """Specimens needed when each runs ``lifetimes`` rated lives: n * L^beta >= need, rounded up."""
+    _check(reliability, confidence)
+    need = _specimen_lives(reliability, confidence, failures)
+    return max(1, math.ceil(need / float(lifetimes**shape) - 1e-9))
 
 
 def cycles_to_demonstrate(

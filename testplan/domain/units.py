@@ -184,9 +184,9 @@ def parse_quantity(text: object, kind: str, unit: str, *, key: str = "") -> floa
     q = ureg.Quantity(value, units)
     if not _matches(q, expected):
         raise QuantityError(
-            f"{text!r} is not a {expected.name}",
+            f"{text!r} is not {_a(expected.name)}",
             key=key,
-            fix=f'give a {expected.name}, e.g. "{expected.example}"',
+            fix=f'give {_a(expected.name)}, e.g. "{expected.example}"',
         )
     if kind == "temperature_difference":
         result = q.to(unit).magnitude
@@ -234,9 +234,9 @@ def linear_map(unit_text: str, kind: str, plan_unit: str, *, key: str = "") -> t
         raise QuantityError(f"unknown unit {text!r}", key=key) from err
     if not _matches(ureg.Quantity(1.0, units), expected):
         raise QuantityError(
-            f"{text!r} is not a {expected.name} unit",
+            f"{text!r} is not {_a(expected.name)} unit",
             key=key,
-            fix=f"give a {expected.name} unit such as {expected.example.split(' ', 1)[1]!r}",
+            fix=f"give {_a(expected.name)} unit such as {expected.example.split(' ', 1)[1]!r}",
         )
     target = plan_unit.replace("%", "percent")
     try:
@@ -255,3 +255,8 @@ def units_table() -> str:
             f'{spec.key:<36} {spec.kind:<19} {spec.plan_unit:<9} e.g. "{KINDS[spec.kind].example}"'
         )
     return "\n".join(lines)
+
+
+def _a(noun: str) -> str:
+    """The noun with its indefinite article: 'a length', 'an area'."""
+    return f"{'an' if noun[:1] in 'aeiou' else 'a'} {noun}"
