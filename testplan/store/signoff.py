@@ -28,6 +28,7 @@ from testplan.store.tables import (
     Attachment,
     Calibration,
     CampaignRecord,
+    CriterionRecord,
     Deviation,
     Equipment,
     Judgement,
@@ -37,6 +38,7 @@ from testplan.store.tables import (
     Person,
     PersonKey,
     PlanRevision,
+    ProcedureRecord,
     RawFile,
     ReportIssue,
     RunEquipment,
@@ -65,6 +67,12 @@ def _row(obj: Any, *skip: str) -> dict[str, Any]:
             continue
         out[column.name] = getattr(obj, column.name)
     return out
+
+
+def _person_body(session: Session, person: Person) -> dict[str, Any]:
+    """A person's record as the manifest and signatures cover it: name, initials and the
+    roles granted (as they stand now)."""
+    return {**_row(person, "public_key"), "roles": sorted(roles_of(session, person))}
 
 
 @dataclass(frozen=True)
@@ -110,6 +118,15 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
     add("campaign", campaign, f"campaign {campaign.reference}", _row(campaign))
     for rev in session.exec(select(PlanRevision).where(PlanRevision.campaign_id == campaign.id)):
         add("plan_revision", rev, f"plan revision {rev.number}", _row(rev))
+        for proc in session.exec(
+            select(ProcedureRecord).where(ProcedureRecord.revision_id == rev.id)
+        ):
+            where = f"{proc.key} of plan revision {rev.number}"
+            add("procedure", proc, f"procedure {where}", _row(proc))
+            for crit in session.exec(
+                select(CriterionRecord).where(CriterionRecord.procedure_id == proc.id)
+            ):
+                add("criterion", crit, f"criterion {crit.key} of {where}", _row(crit))
     specimens = {
         s.id: s
         for s in session.exec(
@@ -121,6 +138,7 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
     runs = session.exec(select(RunRecord).where(RunRecord.campaign_id == campaign.id)).all()
     people: set[uuid.UUID] = set()
     calibrations: set[uuid.UUID] = set()
+    instruments: set[uuid.UUID] = set()
     for run in runs:
         members = sorted(
             str(link.specimen_id)
@@ -131,12 +149,13 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
         for use in session.exec(select(RunEquipment).where(RunEquipment.run_id == run.id)):
             add("run_equipment", use, f"equipment used on {run.key}", _row(use))
             calibrations.add(use.calibration_id)
+            instruments.add(use.equipment_id)
         for d in session.exec(select(Deviation).where(Deviation.run_id == run.id)):
             add("deviation", d, f"deviation on {run.key}: {d.description[:40]}", _row(d))
             people.update((d.approved_by_id, d.recorded_by_id))
         for raw in session.exec(select(RawFile).where(RawFile.run_id == run.id)):
             body = _row(raw, "content")
-            body["content_sha256"] = hashlib.sha256(raw.content).hexdigest()
+            body["content_sha256"] = audit.content_sha256(raw.content, f"raw file {raw.name}")
             add("raw_file", raw, f"raw file {raw.name} of {run.key}", body)
             people.add(raw.operator_id)
             for ch in session.exec(
@@ -153,7 +172,7 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
             att = session.get(Attachment, o.attachment_id) if o.attachment_id else None
             if att is not None:  # a missing one shows as deleted
                 body = _row(att, "content")
-                body["content_sha256"] = hashlib.sha256(att.content).hexdigest()
+                body["content_sha256"] = audit.content_sha256(att.content, f"photo {att.name}")
                 add("attachment", att, f"photo {att.name}", body)
         for j in session.exec(select(Judgement).where(Judgement.run_id == run.id)):
             add("judgement", j, f"judgement of {run.key}", _row(j))
@@ -172,16 +191,15 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
             f"calibration {cal.certificate} of {eq.tag} ({cal.channel})",
             {**_row(cal), "equipment": _row(eq)},
         )
+    for eid in instruments:
+        eq = session.get(Equipment, eid)
+        if eq is not None:
+            add("equipment", eq, f"equipment {eq.tag}", _row(eq))
     for pid in people:
         person = session.get(Person, pid)
         if person is None:
             continue
-        add(
-            "person",
-            person,
-            f"person {person.initials}",
-            {**_row(person, "public_key"), "roles": sorted(roles_of(session, person))},
-        )
+        add("person", person, f"person {person.initials}", _person_body(session, person))
     items.sort(key=lambda i: (i.kind, i.id))
     return items
 
@@ -276,17 +294,33 @@ def register_key(session: Session, *, initials: str, public_b64: str, actor: str
 # --- signing ------------------------------------------------------------------------------
 
 
-def message(root: str, role: str, reference: str, initials: str, at: dt.datetime) -> bytes:
-    return audit.canonical(
-        {
-            "testplan_signoff": 1,
-            "root": root,
-            "role": role,
-            "campaign": reference,
-            "signer": initials,
-            "signed_at": at.astimezone(dt.UTC).isoformat(),
-        }
-    ).encode()
+def message(
+    root: str,
+    role: str,
+    reference: str,
+    initials: str,
+    at: dt.datetime,
+    context: dict[str, Any] | None = None,
+) -> bytes:
+    """The bytes a signature is made over. ``context`` (signatures since schema 0014): the
+    signer's person-record hash and the audit-chain head when signing."""
+    body: dict[str, Any] = {
+        "testplan_signoff": 1,
+        "root": root,
+        "role": role,
+        "campaign": reference,
+        "signer": initials,
+        "signed_at": at.astimezone(dt.UTC).isoformat(),
+    }
+    if context is not None:
+        body = {**body, "testplan_signoff": 2, "context": context}
+    return audit.canonical(body).encode()
+
+
+def signature_context(session: Session, person: Person) -> dict[str, Any]:
+    """What a signature covers besides the manifest: the signer's own record (name,
+    initials, roles) and the audit-chain head at the moment of signing."""
+    return {"signer_sha256": _h(_person_body(session, person)), "audit_head": audit.head(session)}
 
 
 def _ready(session: Session, campaign: CampaignRecord) -> None:
@@ -408,7 +442,8 @@ def sign(
             key="--as",
         )
     at = utc_now()
-    sig = keys.sign(private_key, message(root, role, camp.reference, person.initials, at))
+    context = signature_context(session, person)
+    sig = keys.sign(private_key, message(root, role, camp.reference, person.initials, at, context))
     row = Signature(
         manifest_id=manifest.id,
         role=role,
@@ -416,6 +451,7 @@ def sign(
         key_id=key_row.id,
         signed_at=at,
         signature=sig,
+        context_json=audit.canonical(context),
     )
     session.add(row)
     session.flush()
@@ -570,6 +606,8 @@ def verify(session: Session, *, pdf_sha256: str, claimed: dict[str, Any]) -> Ver
             f"PDF: issued {issue.report_number} revision {issue.revision} on "
             f"{issue.issued_at:%Y-%m-%d %H:%M UTC}"
         )
+        if audit.entry_of(session, "report_issue", issue.id) is None:
+            problems.append("the issue's audit entry is gone (the trail's tail was cut)")
     if manifest is None:
         problems.append("no signed manifest in the store matches this report")
         return Verification(False, lines + [f"problem: {p}" for p in problems])
@@ -589,11 +627,17 @@ def verify(session: Session, *, pdf_sha256: str, claimed: dict[str, Any]) -> Ver
         if person is None or key is None or key.person_id != person.id:
             problems.append(f"{role} signature: its key is not registered for the signer")
             continue
-        msg = message(manifest.root, role, camp.reference, person.initials, s.signed_at)
+        context = json.loads(s.context_json) if s.context_json else None
+        msg = message(manifest.root, role, camp.reference, person.initials, s.signed_at, context)
         if not keys.verify(key.public_key, msg, s.signature):
             problems.append(
                 f"{role} signature of {person.initials}: does not verify with the "
                 f"registered key {key.fingerprint[:16]}"
+            )
+        elif context is not None and _signature_problems(session, s, person, context):
+            problems.extend(
+                f"{role} signature of {person.initials}: {p}"
+                for p in _signature_problems(session, s, person, context)
             )
         elif ROLES[role] not in roles_of(session, person):
             problems.append(
@@ -615,6 +659,22 @@ def verify(session: Session, *, pdf_sha256: str, claimed: dict[str, Any]) -> Ver
     lines.append(f"manifest root {manifest.root} over {len(stored)} records")
     ok = not problems
     return Verification(ok, lines + [f"problem: {p}" for p in problems])
+
+
+def _signature_problems(
+    session: Session, sig: Signature, person: Person, context: dict[str, Any]
+) -> list[str]:
+    """A signature's context against the store now: the signer's record as signed, the
+    audit chain still holding the head it saw and the entry the signing appended."""
+    out = []
+    if _h(_person_body(session, person)) != context["signer_sha256"]:
+        out.append("the signer's person record (name, initials or roles) changed since signing")
+    problem = audit.head_problem(session, context["audit_head"])
+    if problem:
+        out.append(problem)
+    if audit.entry_of(session, "signature", sig.id) is None:
+        out.append("its audit entry is gone (the trail's tail was cut)")
+    return out
 
 
 def raise_if_failed(result: Verification) -> None:

@@ -1,0 +1,116 @@
+"""What is issued is what was signed: attacks on a signed campaign that verify must name.
+
+Each case is a finding made on copies of an approved store: a change behind the tool's back
+(a plain database connection) that an earlier `verify` or `store check` did not see.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+import sqlalchemy as sa
+
+from .conftest import PASS, RUN, Bench, approve_and_issue, record_and_judge
+from .test_audit_chain import unlock_audit
+from .test_signoff import problems
+
+
+@pytest.fixture
+def judged(bench: Bench, monkeypatch: pytest.MonkeyPatch) -> Bench:
+    monkeypatch.setenv("TESTPLAN_KEY_PASSPHRASE", PASS)
+    return record_and_judge(bench)
+
+
+def tamper(b: Bench, statement: str) -> bool:
+    """Run ``statement`` behind the tool; False when PostgreSQL's lock refused it."""
+    try:
+        b.raw(statement)
+    except sa.exc.DBAPIError as err:
+        assert b.url.startswith("postgresql"), err
+        assert "locked" in str(err.orig), err
+        return False
+    return True
+
+
+@pytest.mark.parametrize(
+    ("statement", "named"),
+    [
+        # a signer who ran no run: the preparer's name
+        (
+            "UPDATE person SET name = 'Somebody Else' WHERE initials = 'RP'",
+            "prepared signature of RP: the signer's person record (name, initials or roles) "
+            "changed since signing",
+        ),
+        # a role granted behind the tool to the approver's record
+        (
+            "INSERT INTO person_role (person_id, role) "
+            "SELECT id, 'operator' FROM person WHERE initials = 'MO' "
+            "AND NOT EXISTS (SELECT 1 FROM person_role r WHERE r.person_id = person.id "
+            "AND r.role = 'operator')",
+            "approved signature of MO: the signer's person record",
+        ),
+        # the method text the report prints
+        ("UPDATE procedure SET edition = '1989', clause = '99'", "procedure "),
+        # a criterion limit the judge reads
+        ("UPDATE criterion SET max = 999 WHERE max IS NOT NULL", "criterion "),
+        ("UPDATE criterion SET text = 'anything goes' WHERE text IS NOT NULL", "criterion "),
+        ("UPDATE equipment SET serial = '00000'", "equipment LT-03: changed"),
+    ],
+)
+def test_records_the_report_prints_are_covered(judged: Bench, statement: str, named: str) -> None:
+    pdf = approve_and_issue(judged)
+    if not tamper(judged, statement):
+        assert "verified" in judged("verify", str(pdf)).stdout
+        return
+    found = problems(judged, pdf)
+    assert any(p.startswith(named) for p in found), found
+
+
+def test_cutting_the_audit_trails_tail_is_named(judged: Bench) -> None:
+    """The sign-offs and the issue are the last audit entries; deleting them leaves a chain
+    that still checks out on its own."""
+    pdf = approve_and_issue(judged)
+    unlock_audit(judged)
+    (last,) = judged.sql("SELECT max(seq) FROM audit")[0]
+    judged.raw("DELETE FROM audit WHERE seq > :s", s=last - 4)
+    assert judged("store", "check").stdout.startswith("ok: ")  # the chain alone is whole
+    found = problems(judged, pdf)
+    assert "the issue's audit entry is gone (the trail's tail was cut)" in found, found
+    assert (
+        "approved signature of MO: its audit entry is gone (the trail's tail was cut)" in found
+    ), found
+
+
+def test_a_rewritten_audit_trail_after_signing_is_named(judged: Bench) -> None:
+    """Entries cut back to before the review and re-chained: the head the approver saw is
+    gone."""
+    pdf = approve_and_issue(judged)
+    (context,) = judged.sql("SELECT context_json FROM signature WHERE role = 'approved'")[0]
+    import json
+
+    length = json.loads(context)["audit_head"]["length"]
+    unlock_audit(judged)
+    judged.raw("DELETE FROM audit WHERE seq >= :s", s=length)
+    found = problems(judged, pdf)
+    assert (
+        f"approved signature of MO: the audit trail has no entry {length} any more "
+        "(its tail was cut)" in found
+    ), found
+
+
+def test_raw_file_bytes_stored_as_text_are_named_not_a_crash(judged: Bench) -> None:
+    if judged.url.startswith("postgresql"):
+        pytest.skip("a bytea column cannot hold text; SQLite columns take any type")
+    pdf = approve_and_issue(judged)
+    judged.raw("UPDATE raw_file SET content = 'time,depth'")
+    found = problems(judged, pdf)
+    assert any(p.startswith("raw file tank.csv of " + RUN + ": changed") for p in found), found
+    result = judged("store", "check", ok=False)
+    assert result.exit_code == 3 and "Traceback" not in result.stderr
+    assert "it holds str, not bytes" in result.stderr
+
+
+def test_an_untouched_issued_report_still_verifies(judged: Bench, tmp_path: Path) -> None:
+    pdf = approve_and_issue(judged)
+    assert judged("verify", str(pdf)).stdout.splitlines()[-1] == f"verified: {pdf}"
