@@ -12,6 +12,8 @@ from testplan.cli.errors import reports_errors
 from testplan.errors import TestplanError
 
 if TYPE_CHECKING:  # pragma: no cover
+    import datetime as dt
+
     from sqlmodel import Session
 
 
@@ -51,7 +53,6 @@ def report_command(
         raise TestplanError(f"unknown paper {paper!r}", key="--paper", fix="a4 or letter")
     if output.suffix.lower() != ".pdf":
         raise TestplanError("the report file must end in .pdf", file=output, key="--output")
-    day = parse_date(issue_date, "--issue-date") if issue_date else dt.datetime.now(dt.UTC).date()
     import hashlib
 
     from testplan.store import records, signoff
@@ -59,6 +60,9 @@ def report_command(
     store = open_for_writing(db, quiet=quiet)
     with store.reading() as session:
         data = load_report(session, campaign)
+        kept = _issue_terms(session, campaign, templates)
+    given = parse_date(issue_date, "--issue-date") if issue_date else None
+    day = given or kept or dt.datetime.now(dt.UTC).date()
     ctx = build(data, issue_date=day, paper=sizes[paper.lower()])
     pdf = report_pdf(ctx, templates)
     if not ctx.draft:
@@ -72,6 +76,7 @@ def report_command(
                 pdf_sha256=sha,
                 report_number=ctx.report_number,
                 by=records.os_actor(),
+                issue_date=day,
             )
 
         store.write(unit)
@@ -81,3 +86,21 @@ def report_command(
     write_atomically(output, pdf)
     say(f"{ctx.figure_count} figure(s), {len(ctx.runs)} run section(s)", quiet=quiet)
     typer.echo(f"wrote {output}")
+
+
+def _issue_terms(session: Session, campaign: str, templates: Path | None) -> dt.date | None:
+    """For an approved campaign: refuse other templates than ours (they could print any
+    verdict), and give the date of issue kept for its revision if it was issued."""
+    from testplan.store import records, signoff
+
+    camp = records.find_campaign(session, campaign)
+    if signoff.approved_manifest(session, camp.id) is None:
+        return None  # a draft: any templates, any date
+    if templates is not None:
+        raise TestplanError(
+            f"{camp.reference} is approved: its report is issued only with testplan's own "
+            "templates",
+            key="--templates",
+            fix="leave out --templates (it is for drafts)",
+        )
+    return signoff.issued_date(session, camp)

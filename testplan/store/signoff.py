@@ -324,7 +324,10 @@ def signature_context(session: Session, person: Person) -> dict[str, Any]:
 
 
 def _ready(session: Session, campaign: CampaignRecord) -> None:
-    """Every run carried out is finished, checked by a second person and judged."""
+    """Every run carried out is finished, checked by a second person and judged on the
+    evidence as it is now."""
+    from testplan.store.judging import stale_inputs
+
     runs = session.exec(
         select(RunRecord).where(
             RunRecord.campaign_id == campaign.id, col(RunRecord.started_at).is_not(None)
@@ -339,8 +342,20 @@ def _ready(session: Session, campaign: CampaignRecord) -> None:
                 "checked before sign-off",
                 fix=f"`testplan record check {run.key}`",
             )
-        if session.exec(select(Judgement).where(Judgement.run_id == run.id)).first() is None:
+        last = session.exec(
+            select(Judgement)
+            .where(Judgement.run_id == run.id)
+            .order_by(col(Judgement.judged_at).desc())
+        ).first()
+        if last is None:
             raise RecordError(f"run {run.key} is not judged", fix="run `testplan judge`")
+        stale = stale_inputs(session, run, last)
+        if stale:
+            raise RecordError(
+                f"run {run.key} was judged {last.judged_at:%Y-%m-%d %H:%M} UTC on evidence "
+                f"that has changed since ({'; '.join(stale[:3])})",
+                fix="run `testplan judge` again, then sign",
+            )
 
 
 def _differences(stored: list[list[str]], now: list[Item], *, only_stored: bool) -> list[str]:
@@ -548,23 +563,70 @@ def signoff_state(session: Session, campaign: CampaignRecord) -> SignOffState:
     return SignOffState(manifest.root, signers, "approved" in sigs, revision, replaces)
 
 
-def record_issue(
-    session: Session, *, campaign: CampaignRecord, pdf_sha256: str, report_number: str, by: str
-) -> ReportIssue | None:
-    """Keep the issued PDF's SHA-256 when the campaign is approved (drafts are not issued)."""
+def issued_date(session: Session, campaign: CampaignRecord) -> dt.date | None:
+    """The date of issue kept for the campaign's current approved revision, if issued."""
     manifest = approved_manifest(session, campaign.id)
     if manifest is None:
         return None
-    same = session.exec(select(ReportIssue).where(ReportIssue.pdf_sha256 == pdf_sha256)).first()
-    if same is not None:
-        return same  # the same bytes issued again: one record
+    row = session.exec(
+        select(ReportIssue)
+        .where(ReportIssue.manifest_id == manifest.id)
+        .order_by(col(ReportIssue.issued_at))
+    ).first()
+    return row.issue_date if row is not None else None
+
+
+def record_issue(
+    session: Session,
+    *,
+    campaign: CampaignRecord,
+    pdf_sha256: str,
+    report_number: str,
+    by: str,
+    issue_date: dt.date | None = None,
+) -> ReportIssue | None:
+    """Keep the issued PDF's SHA-256 when the campaign is approved (drafts are not issued).
+
+    Refuses when the records differ from the approved manifest (naming them) and when the
+    revision was already issued with other bytes: one issued PDF per revision."""
+    manifest = approved_manifest(session, campaign.id)
+    if manifest is None:
+        return None
+    changed = _differences(
+        json.loads(manifest.body_json), compute_items(session, campaign), only_stored=False
+    )
+    if changed:
+        raise RecordError(
+            f"{campaign.reference}: the records differ from the approved manifest "
+            f"({'; '.join(changed[:5])}{'; ...' if len(changed) > 5 else ''}); "
+            "nothing was issued",
+            fix="run `testplan verify` on the last issued PDF and `testplan store check`",
+        )
+    revision = report_revision(session, campaign.id)
+    earlier = session.exec(
+        select(ReportIssue).where(
+            ReportIssue.manifest_id == manifest.id, ReportIssue.revision == revision
+        )
+    ).first()
+    if earlier is not None:
+        if earlier.pdf_sha256 == pdf_sha256:
+            return earlier  # the same bytes printed again: one record
+        when = earlier.issue_date or earlier.issued_at.date()
+        raise RecordError(
+            f"{report_number} revision {revision} was issued on {when:%Y-%m-%d} as PDF "
+            f"SHA-256 {earlier.pdf_sha256[:16]}; this print differs, so it was not issued",
+            key="--issue-date",
+            fix="print it again with the issue date and templates it was issued with, or "
+            f"`testplan amend {campaign.reference} --why ...` for a new revision",
+        )
     row = ReportIssue(
         campaign_id=campaign.id,
         manifest_id=manifest.id,
         report_number=report_number,
-        revision=report_revision(session, campaign.id),
+        revision=revision,
         pdf_sha256=pdf_sha256,
         issued_by=by,
+        issue_date=issue_date,
     )
     session.add(row)
     session.flush()
@@ -575,7 +637,12 @@ def record_issue(
         entity="report_issue",
         entity_id=row.id,
         campaign_id=campaign.id,
-        new={"pdf_sha256": pdf_sha256, "revision": row.revision, "root": manifest.root},
+        new={
+            "pdf_sha256": pdf_sha256,
+            "revision": row.revision,
+            "root": manifest.root,
+            "issue_date": issue_date,
+        },
     )
     return row
 

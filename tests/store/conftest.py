@@ -226,10 +226,13 @@ RUN = "water-8@ip-verification-1"
 PASS = "a demo passphrase"
 
 
-def record_and_judge(bench: Bench, *, deviation: bool = False) -> Bench:
+def record_and_judge(
+    bench: Bench, *, deviation: bool = False, until_finished: bool = False
+) -> Bench:
     """One run recorded, checked and judged; RP, LV, MO hold registered keys (the key
     passphrase comes from $TESTPLAN_KEY_PASSPHRASE, set to PASS by the caller). With
-    ``deviation`` the run also carries an approved deviation."""
+    ``deviation`` the run also carries an approved deviation; with ``until_finished`` the
+    run is left finished, neither checked nor judged."""
     bench("people", "add", "RP", "--name", "Rita Pereira", "--role", "preparer", "--quiet")
     bench(
         "people",
@@ -302,6 +305,8 @@ def record_and_judge(bench: Bench, *, deviation: bool = False) -> Bench:
             "--quiet",
         )
     bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
+    if until_finished:
+        return bench
     bench("record", "check", RUN, "--by", "MO", "--at", "2027-01-16T09:00Z", "--quiet")
     bench("judge", "--quiet", ok=False)
     return bench

@@ -11,7 +11,7 @@ from pathlib import Path
 import pytest
 import sqlalchemy as sa
 
-from .conftest import PASS, RUN, Bench, approve_and_issue, record_and_judge
+from .conftest import PASS, RUN, Bench, approve_and_issue, record_and_judge, sign
 from .test_audit_chain import unlock_audit
 from .test_signoff import problems
 
@@ -114,3 +114,87 @@ def test_raw_file_bytes_stored_as_text_are_named_not_a_crash(judged: Bench) -> N
 def test_an_untouched_issued_report_still_verifies(judged: Bench, tmp_path: Path) -> None:
     pdf = approve_and_issue(judged)
     assert judged("verify", str(pdf)).stdout.splitlines()[-1] == f"verified: {pdf}"
+
+
+def test_sign_off_refuses_a_judgement_older_than_the_evidence(
+    bench: Bench, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Finding 2: ingress found after judging was not in the report, which still said pass."""
+    monkeypatch.setenv("TESTPLAN_KEY_PASSPHRASE", PASS)
+    judged = record_and_judge(bench, until_finished=True)
+    judged("judge", "--quiet", ok=False)
+    judged(
+        "record",
+        "observe",
+        RUN,
+        "--specimen",
+        "QC-2027-014-S01",
+        "--ingress",
+        "water:found",
+        "--where",
+        "terminal cavity",
+        "--live-parts",
+        "reached",
+        "--by",
+        "AK",
+        "--quiet",
+    )
+    judged("record", "check", RUN, "--by", "MO", "--at", "2027-01-16T09:00Z", "--quiet")
+    line = judged.fail(*sign(judged, "prepared", "RP"))
+    assert line.startswith(f"error: run {RUN} was judged ")
+    assert "on evidence that has changed since (inputs of " in line
+    assert "observation ingress recorded " in line
+    assert line.endswith("(run `testplan judge` again, then sign)")
+    judged("judge", "--quiet", ok=False)
+    judged(*sign(judged, "prepared", "RP"), "--quiet")
+
+
+def issue(b: Bench, *extra: str, ok: bool = True, name: str = "again.pdf"):  # type: ignore[no-untyped-def]
+    return b("report", "QC-2027-014", "-o", str(b.folder / name), *extra, ok=ok)
+
+
+def test_an_issued_revision_prints_once(judged: Bench) -> None:
+    """Finding 6: another --issue-date gave a second, different issued PDF that verified."""
+    pdf = approve_and_issue(judged)
+    again = issue(judged)  # the kept date of issue, not today's
+    assert (judged.folder / "again.pdf").read_bytes() == pdf.read_bytes()
+    assert "issued TR-QC-2027-014 revision 1" in again.stderr
+    assert judged.sql("SELECT count(*) FROM report_issue") == [(1,)]
+    line = judged.fail(
+        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", "2027-01-02"
+    )
+    assert line.startswith("error: --issue-date: ")
+    assert "revision 1 was issued on 2027-02-01 as PDF SHA-256 " in line
+    assert not (judged.folder / "x.pdf").exists()
+    assert judged.sql("SELECT count(*) FROM report_issue") == [(1,)]
+
+
+def test_an_approved_report_is_not_printed_with_other_templates(judged: Bench) -> None:
+    """Finding 1: a template that printed "pass" everywhere was issued and verified."""
+    mine = judged.folder / "mine"
+    mine.mkdir()
+    (mine / "report.html.j2").write_text("<p>pass</p>\n")
+    approve_and_issue(judged)
+    line = judged.fail(
+        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--templates", str(mine)
+    )
+    assert line == (
+        "error: --templates: QC-2027-014 is approved: its report is issued only with "
+        "testplan's own templates (leave out --templates (it is for drafts))"
+    )
+    assert not (judged.folder / "x.pdf").exists()
+
+
+def test_report_refuses_to_issue_changed_records(judged: Bench) -> None:
+    judged(*sign(judged, "prepared", "RP"), "--quiet")
+    judged(*sign(judged, "reviewed", "LV"), "--quiet")
+    judged(*sign(judged, "approved", "MO"), "--quiet")
+    if not tamper(judged, "UPDATE verdict SET outcome = 'pass'"):
+        return
+    line = judged.fail("report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"))
+    assert line.startswith(
+        "error: QC-2027-014: the records differ from the approved manifest (verdict "
+    )
+    assert "nothing was issued" in line
+    assert judged.sql("SELECT count(*) FROM report_issue") == [(0,)]
+    assert not (judged.folder / "x.pdf").exists()
