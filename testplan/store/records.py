@@ -853,11 +853,12 @@ def check_run(
         )
     checked = at or utc_now()
     assert run.finished_at is not None
-    if at is not None and checked < run.finished_at:
+    if checked < run.finished_at:
         raise RecordError(
             f"check time {checked.isoformat()} is before the run finished "
             f"({run.finished_at.isoformat()})",
             key="--at",
+            fix=None if at is not None else "give the time of the data check with --at",
         )
     run.state, run.checker_id, run.checked_at, run.check_note = (
         "checked",

@@ -576,6 +576,26 @@ def issued_date(session: Session, campaign: CampaignRecord) -> dt.date | None:
     return row.issue_date if row is not None else None
 
 
+def _check_issue_date(
+    session: Session, campaign: CampaignRecord, manifest: Manifest, day: dt.date
+) -> None:
+    """The date of issue is not before the approval nor before any run's data check."""
+    approval = signatures_of(session, manifest)["approved"].signed_at.astimezone(dt.UTC)
+    checks = [
+        r.checked_at.astimezone(dt.UTC)
+        for r in session.exec(select(RunRecord).where(RunRecord.campaign_id == campaign.id))
+        if r.checked_at is not None
+    ]
+    for what, when in (("approved", approval), ("last data check", max(checks, default=None))):
+        if when is not None and day < when.date():
+            raise RecordError(
+                f"date of issue {day:%Y-%m-%d} is before the campaign's {what} "
+                f"({when:%Y-%m-%d %H:%M} UTC); nothing was issued",
+                key="--issue-date",
+                fix=f"give --issue-date {when:%Y-%m-%d} or later",
+            )
+
+
 def record_issue(
     session: Session,
     *,
@@ -602,6 +622,8 @@ def record_issue(
             "nothing was issued",
             fix="run `testplan verify` on the last issued PDF and `testplan store check`",
         )
+    if issue_date is not None:
+        _check_issue_date(session, campaign, manifest, issue_date)
     revision = report_revision(session, campaign.id)
     earlier = session.exec(
         select(ReportIssue).where(
@@ -712,6 +734,13 @@ def verify(session: Session, *, pdf_sha256: str, claimed: dict[str, Any]) -> Ver
             )
         else:
             lines.append(f"{role}: {person.name} ({person.initials}), key {key.fingerprint[:16]}")
+    times = [(r, sigs[r].signed_at) for r in ORDER if r in sigs]
+    for (before, t0), (after, t1) in zip(times, times[1:], strict=False):
+        if t1 < t0:
+            problems.append(
+                f"{after} signature ({t1:%Y-%m-%d %H:%M} UTC) is dated before the {before} "
+                f"one ({t0:%Y-%m-%d %H:%M} UTC)"
+            )
     amendment = session.exec(
         select(Amendment).where(Amendment.supersedes_manifest_id == manifest.id)
     ).first()

@@ -190,7 +190,11 @@ def test_finish_then_check_by_a_second_person(bench: Bench) -> None:
     assert bench.fail("record", "check", RUN, "--by", "AK") == (
         "error: --by: AK ran this run; the data check needs a second person"
     )
-    bench("record", "check", RUN, "--by", "JT", "--note", "logs complete", "--quiet")
+    bench(
+        "record",
+        "check",
+        *(RUN, "--by", "JT", "--note", "logs complete", "--at", "2027-01-16T09:00Z", "--quiet"),
+    )
     assert bench.sql("SELECT state, check_note FROM run WHERE key = :k", k=RUN) == [
         ("checked", "logs complete")
     ]

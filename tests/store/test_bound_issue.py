@@ -161,7 +161,7 @@ def test_an_issued_revision_prints_once(judged: Bench) -> None:
     assert "issued TR-QC-2027-014 revision 1" in again.stderr
     assert judged.sql("SELECT count(*) FROM report_issue") == [(1,)]
     line = judged.fail(
-        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", "2027-01-02"
+        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", "2027-02-02"
     )
     assert line.startswith("error: --issue-date: ")
     assert "revision 1 was issued on 2027-02-01 as PDF SHA-256 " in line
@@ -196,5 +196,22 @@ def test_report_refuses_to_issue_changed_records(judged: Bench) -> None:
         "error: QC-2027-014: the records differ from the approved manifest (verdict "
     )
     assert "nothing was issued" in line
+    assert judged.sql("SELECT count(*) FROM report_issue") == [(0,)]
+    assert not (judged.folder / "x.pdf").exists()
+
+
+@pytest.mark.parametrize("day", ["2026-01-05", "2027-01-10"])
+def test_a_date_of_issue_before_the_approval_or_the_tests_is_refused(
+    judged: Bench, day: str
+) -> None:
+    """Finding 6: an issue date before every test was accepted."""
+    for role, who in (("prepared", "RP"), ("reviewed", "LV"), ("approved", "MO")):
+        judged(*sign(judged, role, who), "--quiet")
+    line = judged.fail(
+        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", day
+    )
+    # the approval is dated today; the run's data check 2027-01-16 09:00 UTC
+    assert line.startswith(f"error: --issue-date: date of issue {day} is before the campaign's ")
+    assert "; nothing was issued (give --issue-date " in line
     assert judged.sql("SELECT count(*) FROM report_issue") == [(0,)]
     assert not (judged.folder / "x.pdf").exists()

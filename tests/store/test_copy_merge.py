@@ -43,11 +43,11 @@ def test_two_bench_stores_merge_into_the_lab_store(bench: Bench, tmp_path: Path)
     assert again.stdout.startswith("copied 0 rows (")
     # The merged campaign is checked, judged, signed off and its report verifies.
     for run in (RUN_A, RUN_B):
-        bench("record", "check", run, "--by", "MO", "--quiet")
+        bench("record", "check", run, "--by", "MO", "--at", "2027-01-20T09:00Z", "--quiet")
     bench("judge", "--quiet", ok=False)
     sign_off(bench, tmp_path)
     pdf = tmp_path / "merged.pdf"
-    bench("report", "QC-2027-014", "-o", str(pdf), "--quiet")
+    bench("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01", "--quiet")
     assert "verified" in bench("verify", str(pdf)).stdout
 
 
