@@ -47,14 +47,20 @@ def check_command(db: DbOption = None) -> None:
     Example: testplan store check --db lab.db
     """
     from testplan.cli.common import open_for_reading
-    from testplan.store.audit import check_attachments, check_chain, check_raw_files
+    from testplan.store.audit import (
+        check_attachments,
+        check_audited,
+        check_chain,
+        check_raw_files,
+    )
 
     store = open_for_reading(db)
     with store.reading() as session:
         entries, chain = check_chain(session)
         files, raw = check_raw_files(session)
         photos, attached = check_attachments(session)
-    problems = chain + raw + attached
+        audited, unaudited = check_audited(session)
+    problems = chain + raw + attached + unaudited
     for p in problems:
         typer.echo(f"problem: {p.line()}", err=True)
     if problems:
@@ -63,7 +69,7 @@ def check_command(db: DbOption = None) -> None:
         )
     typer.echo(
         f"ok: {entries} audit entries chained, {files} raw files and their samples, "
-        f"{photos} attachments match their hashes"
+        f"{photos} attachments match their hashes, {audited} audited records as audited"
     )
 
 

@@ -268,3 +268,53 @@ def check_attachments(session: Session) -> tuple[int, list[Finding]]:
                 Finding("content no longer matches its SHA-256", f"attachment {item.name}")
             )
     return count, findings
+
+
+def check_audited(session: Session) -> tuple[int, list[Finding]]:
+    """Reconcile the records with the audit trail: every audited import still has its raw
+    file, channels and samples with the audited hashes; every audited observation is still
+    there as recorded, with its photo. Returns the number of audited records and what does
+    not match (a change or deletion without an audit entry)."""
+    from testplan.store.tables import Attachment, LoggerChannel, Observation
+
+    findings: list[Finding] = []
+    count = 0
+    for entry in session.exec(
+        select(AuditEntry).where(col(AuditEntry.action).in_(("data.import", "observation.add")))
+    ):
+        count += 1
+        new = json.loads(entry.new_json or "{}")
+        where = f"{entry.entity} {entry.entity_id} (audit entry {entry.seq}, {entry.action})"
+        key = uuid.UUID(entry.entity_id)
+        if entry.action == "data.import":
+            raw = session.get(RawFile, key)
+            if raw is None:
+                findings.append(Finding("deleted without an audit entry", where))
+                continue
+            where = f"raw file {raw.name} of {new.get('run')}"
+            for field in ("sha256", "samples", "samples_sha256"):
+                if getattr(raw, field) != new.get(field):
+                    findings.append(Finding(f"{field} differs from its audited value", where))
+            channels = session.exec(
+                select(sa.func.count())
+                .select_from(LoggerChannel)
+                .where(LoggerChannel.raw_file_id == raw.id)
+            ).one()
+            if int(channels) != len(new.get("channels", [])):
+                findings.append(
+                    Finding(
+                        f"has {channels} channel(s), {len(new.get('channels', []))} audited",
+                        where,
+                    )
+                )
+            continue
+        obs = session.get(Observation, key)
+        if obs is None:
+            findings.append(Finding("deleted without an audit entry", where))
+            continue
+        where = f"observation {obs.kind} in {new.get('run')}"
+        if json.loads(obs.data_json) != new.get("data"):
+            findings.append(Finding("content differs from its audited state", where))
+        if new.get("attachment") and session.get(Attachment, uuid.UUID(new["attachment"])) is None:
+            findings.append(Finding("its photo is gone", where))
+    return count, findings
