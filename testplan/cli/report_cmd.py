@@ -43,9 +43,11 @@ def report_command(
     """
     import datetime as dt
 
+    from testplan import __version__
     from testplan.output import write_atomically
     from testplan.report.context import build
     from testplan.report.pdf import report_html, report_pdf
+    from testplan.report.render import templates_sha256
     from testplan.store.reporting import load_report
 
     sizes = {"a4": "A4", "letter": "letter"}
@@ -77,6 +79,7 @@ def report_command(
                 report_number=ctx.report_number,
                 by=records.os_actor(),
                 issue_date=day,
+                printing={"tool_version": __version__, "templates_sha256": templates_sha256()},
             )
 
         store.write(unit)

@@ -115,11 +115,20 @@ def sign_command(
     from testplan.store import signoff
 
     private = load_private(key, _passphrase(confirm=False))
+    from testplan import __version__
+    from testplan.report.render import templates_sha256
+
+    printing = {"tool_version": __version__, "templates_sha256": templates_sha256()}
     store = open_for_writing(db, quiet=quiet)
 
     def unit(session: Session) -> Signed:
         return signoff.sign(
-            session, campaign=campaign, role=role, initials=as_, private_key=private
+            session,
+            campaign=campaign,
+            role=role,
+            initials=as_,
+            private_key=private,
+            printing=printing,
         )
 
     done = store.write(unit)

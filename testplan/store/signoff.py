@@ -391,8 +391,11 @@ def sign(
     role: str,
     initials: str,
     private_key: Any,
+    printing: dict[str, str] | None = None,
 ) -> Signed:
-    """Sign the campaign's records in ``role`` (prepared, reviewed, approved)."""
+    """Sign the campaign's records in ``role`` (prepared, reviewed, approved). The approval
+    also covers ``printing``: the tool version and the SHA-256 of the template set that
+    will print the issued report."""
     if role not in ROLES:
         raise RecordError(
             f"unknown role {role!r}", key="--role", fix="prepared, reviewed or approved"
@@ -458,6 +461,8 @@ def sign(
         )
     at = utc_now()
     context = signature_context(session, person)
+    if role == "approved" and printing is not None:
+        context["printing"] = printing
     sig = keys.sign(private_key, message(root, role, camp.reference, person.initials, at, context))
     row = Signature(
         manifest_id=manifest.id,
@@ -604,6 +609,7 @@ def record_issue(
     report_number: str,
     by: str,
     issue_date: dt.date | None = None,
+    printing: dict[str, str] | None = None,
 ) -> ReportIssue | None:
     """Keep the issued PDF's SHA-256 when the campaign is approved (drafts are not issued).
 
@@ -624,6 +630,19 @@ def record_issue(
         )
     if issue_date is not None:
         _check_issue_date(session, campaign, manifest, issue_date)
+    approval = signatures_of(session, manifest)["approved"]
+    approved_printing = json.loads(approval.context_json or "{}").get("printing")
+    if printing is not None and approved_printing is not None:
+        if approved_printing["templates_sha256"] != printing["templates_sha256"]:
+            raise RecordError(
+                f"{campaign.reference} was approved for printing with testplan "
+                f"{approved_printing['tool_version']}'s templates (SHA-256 "
+                f"{approved_printing['templates_sha256'][:16]}); these are "
+                f"{printing['templates_sha256'][:16]} (testplan {printing['tool_version']}); "
+                "nothing was issued",
+                fix=f"issue it with testplan {approved_printing['tool_version']}, or amend "
+                "and approve again",
+            )
     revision = report_revision(session, campaign.id)
     earlier = session.exec(
         select(ReportIssue).where(

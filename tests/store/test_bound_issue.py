@@ -215,3 +215,25 @@ def test_a_date_of_issue_before_the_approval_or_the_tests_is_refused(
     assert "; nothing was issued (give --issue-date " in line
     assert judged.sql("SELECT count(*) FROM report_issue") == [(0,)]
     assert not (judged.folder / "x.pdf").exists()
+
+
+def test_the_approval_covers_the_template_set_that_prints(
+    judged: Bench, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """Issuing is part of the signed act: the approval names the tool version and the
+    SHA-256 of the template set; another set (a changed installation) does not issue."""
+    import json
+
+    from testplan.report import render
+
+    for role, who in (("prepared", "RP"), ("reviewed", "LV"), ("approved", "MO")):
+        judged(*sign(judged, role, who), "--quiet")
+    ((context,),) = judged.sql("SELECT context_json FROM signature WHERE role = 'approved'")
+    assert json.loads(context)["printing"]["templates_sha256"] == render.templates_sha256()
+    monkeypatch.setattr(render, "templates_sha256", lambda: "f" * 64)
+    line = judged.fail(
+        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", "2027-02-01"
+    )
+    assert line.startswith("error: QC-2027-014 was approved for printing with testplan ")
+    assert "; these are ffffffffffffffff (testplan " in line
+    assert judged.sql("SELECT count(*) FROM report_issue") == [(0,)]
