@@ -44,6 +44,10 @@ def bench_role(db_url: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> 
         "UPDATE sample_block SET value = t_us",
         "DELETE FROM raw_file",
         "CREATE TABLE scratch (x int)",
+        "UPDATE role_grant SET reason = 'x'",
+        "DELETE FROM role_grant",
+        "UPDATE key_revocation SET reason = 'x'",
+        "UPDATE person_key SET public_key = 'x'",
     ],
 )
 def test_the_bench_role_cannot_get_around_the_record(bench_role: Bench, statement: str) -> None:
@@ -54,12 +58,20 @@ def test_the_bench_role_cannot_get_around_the_record(bench_role: Bench, statemen
     assert "verified" in bench_role("verify", str(bench_role.folder / "report.pdf")).stdout
 
 
-def test_the_owner_cannot_truncate_either(db_url: str, tmp_path: Path) -> None:
+def test_the_bench_role_grants_and_revokes_as_a_manager(bench_role: Bench) -> None:
+    # the identity acts are inserts the bench role may make, signed by a manager's key
+    bench_role("keys", "revoke", "LV", "--why", "laptop lost", *bench_role.signed("QM"), "--quiet")
+    assert bench_role.sql("SELECT reason FROM key_revocation") == [("laptop lost",)]
+    assert bench_role("store", "check").stdout.startswith("ok: ")
+
+
+@pytest.mark.parametrize("table", ["person", "role_grant", "key_revocation", "audit"])
+def test_the_owner_cannot_truncate_either(db_url: str, tmp_path: Path, table: str) -> None:
     if not db_url.startswith("postgresql"):
         pytest.skip("PostgreSQL triggers")
     owner = stock(Bench(db_url, tmp_path))
     with pytest.raises(sa.exc.DBAPIError, match="cannot be truncated: records are kept"):
-        owner.raw("TRUNCATE person_role")
+        owner.raw(f"TRUNCATE {table} CASCADE")
 
 
 def test_grant_bench_on_sqlite_is_one_line(bench: Bench) -> None:
