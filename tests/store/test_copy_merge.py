@@ -132,8 +132,9 @@ def test_a_bench_store_merges_back_into_postgresql(
         judged.plain("store", "copy", "--from", judged.url, "--to", url, "--quiet")
         bench_store = Bench(f"sqlite:///{tmp_path / 'bench-y.db'}", tmp_path)
         lab.plain("store", "copy", "--from", url, "--to", bench_store.url, "--quiet")
-        bench_store("people", "add", "ZZ", "--name", "Zia Zorn", "--role", "operator", "--quiet")
-        bench_store("people", "authorise", "AK", "--role", "checker", "--by", "MO", "--quiet")
+        bench_store.add("ZZ", "Zia Zorn", "operator")
+        bench_store("people", "grant", "AK", "--role", "checker", "--why", "trained",
+                    *bench_store.signed("QM"), "--quiet")  # fmt: skip
         lab.plain("store", "copy", "--from", bench_store.url, "--to", url, "--quiet")
         assert lab.sql("SELECT name FROM person WHERE initials = 'ZZ'") == [("Zia Zorn",)]
         assert lab("store", "check").stdout.startswith("ok: ")
