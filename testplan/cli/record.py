@@ -625,10 +625,7 @@ def observe_command(
         if e.kind == "photo":
             path = Path(e.data["file"])
             path = path if path.is_absolute() else base / path
-            try:
-                content = path.read_bytes()
-            except OSError:
-                raise RecordError("cannot read the photo", file=path, key="photo.file") from None
+            content = _read_photo(path)
             name = path.name
             e.data["file"] = name
         items.append(
@@ -712,3 +709,34 @@ def check_command(
 
     store.write(unit)
     typer.echo(f"{run}: data checked by {by}")
+
+
+def _read_photo(path: Path) -> bytes:
+    """A photo's bytes: a regular file of an image type (by its first bytes, not its name)
+    up to 50 MB, whose name has no control or bidi characters; else one RecordError."""
+    import stat
+
+    from testplan.domain.observations import PHOTO_MAX_BYTES, name_problem, photo_type
+
+    def refuse(why: str) -> RecordError:
+        return RecordError(why, file=path, key="photo.file")
+
+    problem = name_problem(path.name)
+    if problem:  # the name shown escaped, so the message itself is not reordered
+        shown = path.with_name(path.name.encode("unicode_escape").decode("ascii"))
+        raise RecordError(f"not taken as a photo: {problem}", file=shown, key="photo.file")
+    try:
+        info = path.stat()
+        if not stat.S_ISREG(info.st_mode):
+            raise refuse("not taken as a photo: not a regular file")
+        if info.st_size > PHOTO_MAX_BYTES:
+            raise refuse(f"not taken as a photo: {info.st_size} bytes, more than 50 MB")
+        with path.open("rb") as f:
+            content = f.read(PHOTO_MAX_BYTES + 1)
+    except OSError:
+        raise refuse("cannot read the photo") from None
+    if len(content) > PHOTO_MAX_BYTES:
+        raise refuse("not taken as a photo: more than 50 MB")
+    if photo_type(content[:16]) is None:
+        raise refuse("not taken as a photo: not a JPEG, PNG, WebP, TIFF or HEIC image")
+    return content

@@ -12,6 +12,8 @@ from testplan.cli.errors import reports_errors
 from testplan.errors import TestplanError
 
 if TYPE_CHECKING:  # pragma: no cover
+    import datetime as dt
+
     from sqlmodel import Session
 
 
@@ -41,9 +43,11 @@ def report_command(
     """
     import datetime as dt
 
+    from testplan import __version__
     from testplan.output import write_atomically
     from testplan.report.context import build
     from testplan.report.pdf import report_html, report_pdf
+    from testplan.report.render import templates_sha256
     from testplan.store.reporting import load_report
 
     sizes = {"a4": "A4", "letter": "letter"}
@@ -51,7 +55,6 @@ def report_command(
         raise TestplanError(f"unknown paper {paper!r}", key="--paper", fix="a4 or letter")
     if output.suffix.lower() != ".pdf":
         raise TestplanError("the report file must end in .pdf", file=output, key="--output")
-    day = parse_date(issue_date, "--issue-date") if issue_date else dt.datetime.now(dt.UTC).date()
     import hashlib
 
     from testplan.store import records, signoff
@@ -59,6 +62,9 @@ def report_command(
     store = open_for_writing(db, quiet=quiet)
     with store.reading() as session:
         data = load_report(session, campaign)
+        kept = _issue_terms(session, campaign, templates)
+    given = parse_date(issue_date, "--issue-date") if issue_date else None
+    day = given or kept or dt.datetime.now(dt.UTC).date()
     ctx = build(data, issue_date=day, paper=sizes[paper.lower()])
     pdf = report_pdf(ctx, templates)
     if not ctx.draft:
@@ -72,6 +78,8 @@ def report_command(
                 pdf_sha256=sha,
                 report_number=ctx.report_number,
                 by=records.os_actor(),
+                issue_date=day,
+                printing={"tool_version": __version__, "templates_sha256": templates_sha256()},
             )
 
         store.write(unit)
@@ -81,3 +89,21 @@ def report_command(
     write_atomically(output, pdf)
     say(f"{ctx.figure_count} figure(s), {len(ctx.runs)} run section(s)", quiet=quiet)
     typer.echo(f"wrote {output}")
+
+
+def _issue_terms(session: Session, campaign: str, templates: Path | None) -> dt.date | None:
+    """For an approved campaign: refuse other templates than ours (they could print any
+    verdict), and give the date of issue kept for its revision if it was issued."""
+    from testplan.store import records, signoff
+
+    camp = records.find_campaign(session, campaign)
+    if signoff.approved_manifest(session, camp.id) is None:
+        return None  # a draft: any templates, any date
+    if templates is not None:
+        raise TestplanError(
+            f"{camp.reference} is approved: its report is issued only with testplan's own "
+            "templates",
+            key="--templates",
+            fix="leave out --templates (it is for drafts)",
+        )
+    return signoff.issued_date(session, camp)

@@ -44,10 +44,14 @@ def sign_command(
     from testplan.store import signoff
 
     signer = load_signer(as_, key, option="--as")
+    from testplan import __version__
+    from testplan.report.render import templates_sha256
+
+    printing = {"tool_version": __version__, "templates_sha256": templates_sha256()}
     store = open_for_writing(db, quiet=quiet)
 
     def unit(session: Session) -> Signed:
-        return signoff.sign(session, campaign=campaign, role=role, signer=signer)
+        return signoff.sign(session, campaign=campaign, role=role, signer=signer, printing=printing)
 
     done = store.write(unit)
     locked = "; the campaign is now locked" if done.role == "approved" else ""

@@ -37,6 +37,29 @@ def upgrade_command(db: DbOption = None, quiet: QuietOption = False) -> None:
     typer.echo(f"upgraded the store from schema {before} to {head}")
 
 
+@app.command("grant-bench")
+@reports_errors
+def grant_bench_command(
+    role: Annotated[str, typer.Argument(help="An existing PostgreSQL role, e.g. bench.")],
+    db: DbOption = None,
+    quiet: QuietOption = False,
+) -> None:
+    """Give a PostgreSQL role the bench privileges: read and record, nothing more (no
+    TRUNCATE, no DDL, no trigger control, no change to append-only records). Run it as the
+    database's owner, after `store upgrade`.
+
+    Example: testplan store grant-bench bench --db postgresql://owner@lab/testplan
+    """
+    from testplan.store.engine import open_store
+    from testplan.store.privileges import grant_bench
+
+    store = open_store(db)
+    track(store)
+    say(f"store: {store.name}", quiet=quiet)
+    statements = grant_bench(store.engine, role)
+    typer.echo(f"{role}: bench privileges granted ({len(statements)} statements)")
+
+
 @app.command("check")
 @reports_errors
 def check_command(db: DbOption = None) -> None:
@@ -47,14 +70,20 @@ def check_command(db: DbOption = None) -> None:
     Example: testplan store check --db lab.db
     """
     from testplan.cli.common import open_for_reading
-    from testplan.store.audit import check_attachments, check_chain, check_raw_files
+    from testplan.store.audit import (
+        check_attachments,
+        check_audited,
+        check_chain,
+        check_raw_files,
+    )
 
     store = open_for_reading(db)
     with store.reading() as session:
         entries, chain = check_chain(session)
         files, raw = check_raw_files(session)
         photos, attached = check_attachments(session)
-    problems = chain + raw + attached
+        audited, unaudited = check_audited(session)
+    problems = chain + raw + attached + unaudited
     for p in problems:
         typer.echo(f"problem: {p.line()}", err=True)
     if problems:
@@ -63,7 +92,7 @@ def check_command(db: DbOption = None) -> None:
         )
     typer.echo(
         f"ok: {entries} audit entries chained, {files} raw files and their samples, "
-        f"{photos} attachments match their hashes"
+        f"{photos} attachments match their hashes, {audited} audited records as audited"
     )
 
 

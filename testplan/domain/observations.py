@@ -225,3 +225,40 @@ def check_sheet(data: dict[str, Any]) -> list[Entry]:
     if not out:
         raise _bad("the sheet holds no observation", "sheet", "kinds: " + ", ".join(KINDS))
     return out
+
+
+# --- photos -------------------------------------------------------------------------------
+
+PHOTO_MAX_BYTES = 50 * 1024 * 1024
+# (offset, signature, media type); HEIC is an ISO-BMFF "ftyp" box with a HEIF brand
+PHOTO_MAGIC = (
+    (0, b"\xff\xd8\xff", "image/jpeg"),
+    (0, b"\x89PNG\r\n\x1a\n", "image/png"),
+    (0, b"II*\x00", "image/tiff"),
+    (0, b"MM\x00*", "image/tiff"),
+)
+HEIF_BRANDS = (b"heic", b"heix", b"hevc", b"hevx", b"heim", b"heis", b"mif1", b"msf1")
+
+
+def photo_type(head: bytes) -> str | None:
+    """The image type of a file from its first bytes (JPEG, PNG, WebP, TIFF, HEIC), or None."""
+    for offset, magic, media in PHOTO_MAGIC:
+        if head[offset : offset + len(magic)] == magic:
+            return media
+    if head[:4] == b"RIFF" and head[8:12] == b"WEBP":
+        return "image/webp"
+    if head[4:8] == b"ftyp" and head[8:12] in HEIF_BRANDS:
+        return "image/heic"
+    return None
+
+
+def name_problem(name: str) -> str | None:
+    """What is wrong with a file name kept in the records: control or bidi characters."""
+    import unicodedata
+
+    for ch in name:
+        if unicodedata.category(ch) in ("Cc", "Cf") or unicodedata.bidirectional(ch) in (
+            "LRE", "RLE", "LRO", "RLO", "PDF", "LRI", "RLI", "FSI", "PDI"
+        ):  # fmt: skip
+            return f"its name holds the character U+{ord(ch):04X}; rename the file"
+    return None

@@ -31,6 +31,19 @@ def template_dir(override: str | Path | None = None) -> Path:
     )
 
 
+def templates_sha256() -> str:
+    """The SHA-256 of testplan's own template set: every file's relative path and bytes, in
+    path order. An approval records it; an issued report prints only with the same set."""
+    import hashlib
+
+    folder = template_dir()
+    digest = hashlib.sha256()
+    for path in sorted(p for p in folder.rglob("*") if p.is_file()):
+        digest.update(path.relative_to(folder).as_posix().encode() + b"\0")
+        digest.update(hashlib.sha256(path.read_bytes()).digest())
+    return digest.hexdigest()
+
+
 def environment(override: str | Path | None = None) -> jinja2.Environment:
     """A jinja2 environment over the user's folder (if given) then the default templates."""
     loaders: list[jinja2.BaseLoader] = []

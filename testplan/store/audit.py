@@ -47,6 +47,16 @@ def _plain(value: Any) -> Any:
     raise TypeError(f"cannot put {type(value).__name__} in the audit trail")
 
 
+def content_sha256(content: Any, what: str) -> str:
+    """The SHA-256 of stored bytes; content of another type (text written behind the tool's
+    back) gets a marker hash that matches nothing, so verify names the record as changed."""
+    if isinstance(content, memoryview):
+        content = content.tobytes()
+    if isinstance(content, bytes):
+        return hashlib.sha256(content).hexdigest()
+    return f"wrongly typed: {what} holds {type(content).__name__}, not bytes"
+
+
 def entry_hash(entry: AuditEntry) -> str:
     """The hash an entry must carry, from its content and the previous hash."""
     body = {
@@ -80,6 +90,24 @@ def store_id(session: Session) -> str:
     return str(cached)
 
 
+def _last(session: Session, chain: str) -> AuditEntry | None:
+    return session.exec(
+        select(AuditEntry)
+        .where(AuditEntry.chain == chain)
+        .order_by(col(AuditEntry.seq).desc())
+        .limit(1)
+    ).first()
+
+
+def entry_of(session: Session, entity: str, entity_id: uuid.UUID) -> AuditEntry | None:
+    """The (first) audit entry written for a record, if the trail still holds it."""
+    return session.exec(
+        select(AuditEntry).where(
+            AuditEntry.entity == entity, AuditEntry.entity_id == str(entity_id)
+        )
+    ).first()
+
+
 def append(
     session: Session,
     *,
@@ -100,12 +128,7 @@ def append(
     if session.get_bind().dialect.name == "postgresql":
         session.execute(sa.text("SELECT pg_advisory_xact_lock(hashtext('testplan.audit'))"))
     chain = store_id(session)
-    last = session.exec(
-        select(AuditEntry)
-        .where(AuditEntry.chain == chain)
-        .order_by(col(AuditEntry.seq).desc())
-        .limit(1)
-    ).first()
+    last = _last(session, chain)
     entry = AuditEntry(
         chain=chain,
         seq=(last.seq + 1) if last else 1,
@@ -125,6 +148,33 @@ def append(
     session.add(entry)
     session.flush()
     return entry
+
+
+def head(session: Session) -> dict[str, Any]:
+    """This store's audit-chain head: chain id, length (last sequence number) and hash."""
+    chain = store_id(session)
+    last = _last(session, chain)
+    return {
+        "chain": chain,
+        "length": last.seq if last else 0,
+        "hash": last.hash if last else GENESIS,
+    }
+
+
+def head_problem(session: Session, recorded: dict[str, Any]) -> str | None:
+    """What is wrong with the chain against a head recorded earlier (None: it is there)."""
+    if recorded["length"] == 0:
+        return None
+    entry = session.exec(
+        select(AuditEntry).where(
+            AuditEntry.chain == recorded["chain"], AuditEntry.seq == recorded["length"]
+        )
+    ).first()
+    if entry is None:
+        return f"the audit trail has no entry {recorded['length']} any more (its tail was cut)"
+    if entry.hash != recorded["hash"]:
+        return f"audit entry {recorded['length']} is not the one recorded (trail rewritten)"
+    return None
 
 
 @dataclass(frozen=True)
@@ -178,7 +228,10 @@ def check_raw_files(session: Session) -> tuple[int, list[Finding]]:
     for raw in session.exec(select(RawFile).order_by(col(RawFile.imported_at))):
         count += 1
         where = f"raw file {raw.name} ({raw.id})"
-        if hashlib.sha256(raw.content).hexdigest() != raw.sha256:
+        digest = content_sha256(raw.content, "it")
+        if digest.startswith("wrongly typed"):
+            findings.append(Finding(digest.removeprefix("wrongly typed: "), where))
+        elif digest != raw.sha256:
             findings.append(Finding("content no longer matches its SHA-256", where))
         data, problems = check_blocks(session, raw.id)
         for p in problems:
@@ -205,8 +258,63 @@ def check_attachments(session: Session) -> tuple[int, list[Finding]]:
     count = 0
     for item in session.exec(select(Attachment)):
         count += 1
-        if hashlib.sha256(item.content).hexdigest() != item.sha256:
+        digest = content_sha256(item.content, "it")
+        if digest.startswith("wrongly typed"):
+            findings.append(
+                Finding(digest.removeprefix("wrongly typed: "), f"attachment {item.name}")
+            )
+        elif digest != item.sha256:
             findings.append(
                 Finding("content no longer matches its SHA-256", f"attachment {item.name}")
             )
+    return count, findings
+
+
+def check_audited(session: Session) -> tuple[int, list[Finding]]:
+    """Reconcile the records with the audit trail: every audited import still has its raw
+    file, channels and samples with the audited hashes; every audited observation is still
+    there as recorded, with its photo. Returns the number of audited records and what does
+    not match (a change or deletion without an audit entry)."""
+    from testplan.store.tables import Attachment, LoggerChannel, Observation
+
+    findings: list[Finding] = []
+    count = 0
+    for entry in session.exec(
+        select(AuditEntry).where(col(AuditEntry.action).in_(("data.import", "observation.add")))
+    ):
+        count += 1
+        new = json.loads(entry.new_json or "{}")
+        where = f"{entry.entity} {entry.entity_id} (audit entry {entry.seq}, {entry.action})"
+        key = uuid.UUID(entry.entity_id)
+        if entry.action == "data.import":
+            raw = session.get(RawFile, key)
+            if raw is None:
+                findings.append(Finding("deleted without an audit entry", where))
+                continue
+            where = f"raw file {raw.name} of {new.get('run')}"
+            for field in ("sha256", "samples", "samples_sha256"):
+                if getattr(raw, field) != new.get(field):
+                    findings.append(Finding(f"{field} differs from its audited value", where))
+            channels = session.exec(
+                select(sa.func.count())
+                .select_from(LoggerChannel)
+                .where(LoggerChannel.raw_file_id == raw.id)
+            ).one()
+            if int(channels) != len(new.get("channels", [])):
+                findings.append(
+                    Finding(
+                        f"has {channels} channel(s), {len(new.get('channels', []))} audited",
+                        where,
+                    )
+                )
+            continue
+        obs = session.get(Observation, key)
+        if obs is None:
+            findings.append(Finding("deleted without an audit entry", where))
+            continue
+        where = f"observation {obs.kind} in {new.get('run')}"
+        if json.loads(obs.data_json) != new.get("data"):
+            findings.append(Finding("content differs from its audited state", where))
+        if new.get("attachment") and session.get(Attachment, uuid.UUID(new["attachment"])) is None:
+            findings.append(Finding("its photo is gone", where))
     return count, findings

@@ -8,6 +8,7 @@ transaction on the destination; the audit chains are checked at the end.
 
 from __future__ import annotations
 
+import uuid
 from collections import defaultdict
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
@@ -44,7 +45,8 @@ def _label(table: sa.Table, row: Mapping[str, Any]) -> str:
 def _audit_ids(conn: sa.Connection) -> dict[str, set[str]]:
     out: dict[str, set[str]] = defaultdict(set)
     for entity_id, entry_id in conn.execute(sa.text("SELECT entity_id, id FROM audit")):
-        out[str(entity_id)].add(str(entry_id))
+        # SQLite keeps a UUID as 32 hex digits, PostgreSQL as a uuid: compare them as UUIDs
+        out[str(entity_id)].add(str(uuid.UUID(str(entry_id))))
     return out
 
 
@@ -55,8 +57,9 @@ def copy_store(
     into the lab's (merge). All of it or none of it, in one transaction on ``target``.
 
     Rows are matched by their UUID keys. A row in both stores that is the same is left; one
-    that differs is taken from the store whose audit trail for it includes the other's (the
-    later version); if each store changed it independently the merge stops and names it.
+    that differs is taken from the store whose audit trail for it includes more than the
+    other's (the later version); if each store changed it independently, or it differs with
+    the same audit history (changed outside testplan), the merge stops and names it.
     """
     from testplan.store.audit import check_chain
 
@@ -108,6 +111,14 @@ def _copy_rows(
                     continue
                 entity = str(row.get("id", ""))
                 s_ids, d_ids = src_audit.get(entity, set()), dst_audit.get(entity, set())
+                if table.name != "audit" and s_ids == d_ids:
+                    raise StoreError(
+                        f"{_label(table, row)} differs between the stores while its audit "
+                        "history is the same: it was changed outside testplan; nothing was "
+                        "copied",
+                        key="--from",
+                        fix="run `testplan store check` and `testplan verify` on both stores",
+                    )
                 if table.name != "audit" and d_ids <= s_ids:
                     cond = sa.and_(*(table.c[k] == row[k] for k in pk))
                     dst.execute(table.update().where(cond).values(**row))

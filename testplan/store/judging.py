@@ -261,11 +261,11 @@ def interpret_endurance(data: J.RunData, verdicts: list[J.Verdict]) -> dict[str,
     }
 
 
-def judge_one(session: Session, run: RunRecord, actor: str) -> RunJudgement:
-    """Judge a finished run and keep the judgement unless the same inputs were judged before."""
+def evaluate(session: Session, run: RunRecord) -> tuple[J.RunData, J.Rule, list[J.Verdict], str]:
+    """Judge a finished run from its evidence as it is now, without keeping anything:
+    the run's data, the rule, the verdicts and the hash of every input."""
     data = load_run(session, run)
-    plan = _plan(session, run)
-    rule = rule_of(plan)
+    rule = rule_of(_plan(session, run))
     verdicts = J.judge_run(data, rule)
     for v in verdicts:
         v.sources = sorted(set(v.sources))
@@ -278,7 +278,39 @@ def judge_one(session: Session, run: RunRecord, actor: str) -> RunJudgement:
         data.finished_at,
         __version__,
     ]
-    inputs = _hash(base + sorted({s for v in verdicts for s in v.sources}))
+    return data, rule, verdicts, _hash(base + sorted({s for v in verdicts for s in v.sources}))
+
+
+def verdict_inputs(rule: J.Rule, verdict: J.Verdict) -> str:
+    """The hash of one verdict's inputs, as kept on its verdict record."""
+    return _hash([verdict.criterion, rule.name, rule.guard_factor, *verdict.sources])
+
+
+def stale_inputs(session: Session, run: RunRecord, last: Judgement) -> list[str] | None:
+    """None when the run's latest judgement matches its evidence now; else what differs
+    (criteria whose inputs changed, and records made after the judging)."""
+    _, rule, verdicts, inputs = evaluate(session, run)
+    if inputs == last.inputs_sha256:
+        return None
+    kept = {
+        (v.criterion_key, v.inputs_sha256)
+        for v in session.exec(select(VerdictRecord).where(VerdictRecord.judgement_id == last.id))
+    }
+    changed = sorted(
+        {v.criterion for v in verdicts if (v.criterion, verdict_inputs(rule, v)) not in kept}
+    )
+    out = [f"inputs of {c} changed" for c in changed]
+    for o in session.exec(select(Observation).where(Observation.run_id == run.id)):
+        if o.recorded_at > last.judged_at:
+            out.append(f"observation {o.kind} recorded {o.recorded_at:%Y-%m-%d %H:%M} UTC")
+    if last.tool_version != __version__:
+        out.append(f"judged by testplan {last.tool_version}, this is {__version__}")
+    return out or ["the evidence differs from what was judged"]
+
+
+def judge_one(session: Session, run: RunRecord, actor: str) -> RunJudgement:
+    """Judge a finished run and keep the judgement unless the same inputs were judged before."""
+    data, rule, verdicts, inputs = evaluate(session, run)
     outcome = J.worst([v.outcome for v in verdicts])
     interpretation = interpret_endurance(data, verdicts)
     last = session.exec(
@@ -327,7 +359,7 @@ def judge_one(session: Session, run: RunRecord, actor: str) -> RunJudgement:
                     window_end=v.window_end,
                     detail=v.detail,
                     flags_json=audit.canonical(v.flags),
-                    inputs_sha256=_hash([v.criterion, rule.name, rule.guard_factor, *v.sources]),
+                    inputs_sha256=verdict_inputs(rule, v),
                 )
             )
         session.flush()

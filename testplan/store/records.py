@@ -823,11 +823,12 @@ def check_run(
     _state(run, ("finished",), "check")
     checked = at or utc_now()
     assert run.finished_at is not None
-    if at is not None and checked < run.finished_at:
+    if checked < run.finished_at:
         raise RecordError(
             f"check time {checked.isoformat()} is before the run finished "
             f"({run.finished_at.isoformat()})",
             key="--at",
+            fix=None if at is not None else "give the time of the data check with --at",
         )
     note = clean_text(note, key="--note") if note is not None else None
     checker = require_role(session, by.initials, "checker", key=by.option, at=checked)

@@ -39,6 +39,7 @@ from testplan.store.tables import (
     Attachment,
     Calibration,
     CampaignRecord,
+    CriterionRecord,
     Deviation,
     Equipment,
     Judgement,
@@ -48,6 +49,7 @@ from testplan.store.tables import (
     Person,
     PersonKey,
     PlanRevision,
+    ProcedureRecord,
     RawFile,
     ReportIssue,
     RunEquipment,
@@ -85,6 +87,12 @@ def _row(obj: Any, *skip: str) -> dict[str, Any]:
             continue
         out[column.name] = getattr(obj, column.name)
     return out
+
+
+def _person_body(person: Person) -> dict[str, Any]:
+    """A person's record as the manifest and signatures cover it: name and initials. Roles
+    are dated grants of their own, checked at the time of each act."""
+    return _row(person, "public_key")
 
 
 @dataclass(frozen=True)
@@ -130,6 +138,15 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
     add("campaign", campaign, f"campaign {campaign.reference}", _row(campaign))
     for rev in session.exec(select(PlanRevision).where(PlanRevision.campaign_id == campaign.id)):
         add("plan_revision", rev, f"plan revision {rev.number}", _row(rev))
+        for proc in session.exec(
+            select(ProcedureRecord).where(ProcedureRecord.revision_id == rev.id)
+        ):
+            where = f"{proc.key} of plan revision {rev.number}"
+            add("procedure", proc, f"procedure {where}", _row(proc))
+            for crit in session.exec(
+                select(CriterionRecord).where(CriterionRecord.procedure_id == proc.id)
+            ):
+                add("criterion", crit, f"criterion {crit.key} of {where}", _row(crit))
     specimens = {
         s.id: s
         for s in session.exec(
@@ -141,6 +158,7 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
     runs = session.exec(select(RunRecord).where(RunRecord.campaign_id == campaign.id)).all()
     people: set[uuid.UUID] = set()
     calibrations: set[uuid.UUID] = set()
+    instruments: set[uuid.UUID] = set()
     for run in runs:
         members = sorted(
             str(link.specimen_id)
@@ -151,12 +169,13 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
         for use in session.exec(select(RunEquipment).where(RunEquipment.run_id == run.id)):
             add("run_equipment", use, f"equipment used on {run.key}", _row(use))
             calibrations.add(use.calibration_id)
+            instruments.add(use.equipment_id)
         for d in session.exec(select(Deviation).where(Deviation.run_id == run.id)):
             add("deviation", d, f"deviation on {run.key}: {d.description[:40]}", _row(d))
             people.update((d.approved_by_id, d.recorded_by_id))
         for raw in session.exec(select(RawFile).where(RawFile.run_id == run.id)):
             body = _row(raw, "content")
-            body["content_sha256"] = hashlib.sha256(raw.content).hexdigest()
+            body["content_sha256"] = audit.content_sha256(raw.content, f"raw file {raw.name}")
             add("raw_file", raw, f"raw file {raw.name} of {run.key}", body)
             people.add(raw.operator_id)
             for ch in session.exec(
@@ -173,7 +192,7 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
             att = session.get(Attachment, o.attachment_id) if o.attachment_id else None
             if att is not None:  # a missing one shows as deleted
                 body = _row(att, "content")
-                body["content_sha256"] = hashlib.sha256(att.content).hexdigest()
+                body["content_sha256"] = audit.content_sha256(att.content, f"photo {att.name}")
                 add("attachment", att, f"photo {att.name}", body)
         for j in session.exec(select(Judgement).where(Judgement.run_id == run.id)):
             add("judgement", j, f"judgement of {run.key}", _row(j))
@@ -192,16 +211,15 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
             f"calibration {cal.certificate} of {eq.tag} ({cal.channel})",
             {**_row(cal), "equipment": _row(eq)},
         )
+    for eid in instruments:
+        eq = session.get(Equipment, eid)
+        if eq is not None:
+            add("equipment", eq, f"equipment {eq.tag}", _row(eq))
     for pid in people:
         person = session.get(Person, pid)
         if person is None:
             continue
-        add(
-            "person",
-            person,
-            f"person {person.initials}",
-            _row(person, "public_key"),  # roles are checked at the time of each act
-        )
+        add("person", person, f"person {person.initials}", _person_body(person))
     items.sort(key=lambda i: (i.kind, i.id))
     return items
 
@@ -243,21 +261,40 @@ def report_revision(session: Session, campaign_id: uuid.UUID) -> int:
 # --- signing ------------------------------------------------------------------------------
 
 
-def message(root: str, role: str, reference: str, initials: str, at: dt.datetime) -> bytes:
-    return audit.canonical(
-        {
-            "testplan_signoff": 1,
-            "root": root,
-            "role": role,
-            "campaign": reference,
-            "signer": initials,
-            "signed_at": at.astimezone(dt.UTC).isoformat(),
-        }
-    ).encode()
+def message(
+    root: str,
+    role: str,
+    reference: str,
+    initials: str,
+    at: dt.datetime,
+    context: dict[str, Any] | None = None,
+) -> bytes:
+    """The bytes a signature is made over. ``context`` (signatures since schema 0014): the
+    signer's person-record hash and the audit-chain head when signing."""
+    body: dict[str, Any] = {
+        "testplan_signoff": 1,
+        "root": root,
+        "role": role,
+        "campaign": reference,
+        "signer": initials,
+        "signed_at": at.astimezone(dt.UTC).isoformat(),
+    }
+    if context is not None:
+        body = {**body, "testplan_signoff": 2, "context": context}
+    return audit.canonical(body).encode()
+
+
+def signature_context(session: Session, person: Person) -> dict[str, Any]:
+    """What a signature covers besides the manifest: the signer's own record (name,
+    initials) and the audit-chain head at the moment of signing."""
+    return {"signer_sha256": _h(_person_body(person)), "audit_head": audit.head(session)}
 
 
 def _ready(session: Session, campaign: CampaignRecord) -> None:
-    """Every run carried out is finished, checked by a second person and judged."""
+    """Every run carried out is finished, checked by a second person and judged on the
+    evidence as it is now."""
+    from testplan.store.judging import stale_inputs
+
     runs = session.exec(
         select(RunRecord).where(
             RunRecord.campaign_id == campaign.id, col(RunRecord.started_at).is_not(None)
@@ -272,8 +309,20 @@ def _ready(session: Session, campaign: CampaignRecord) -> None:
                 "checked before sign-off",
                 fix=f"`testplan record check {run.key}`",
             )
-        if session.exec(select(Judgement).where(Judgement.run_id == run.id)).first() is None:
+        last = session.exec(
+            select(Judgement)
+            .where(Judgement.run_id == run.id)
+            .order_by(col(Judgement.judged_at).desc())
+        ).first()
+        if last is None:
             raise RecordError(f"run {run.key} is not judged", fix="run `testplan judge`")
+        stale = stale_inputs(session, run, last)
+        if stale:
+            raise RecordError(
+                f"run {run.key} was judged {last.judged_at:%Y-%m-%d %H:%M} UTC on evidence "
+                f"that has changed since ({'; '.join(stale[:3])})",
+                fix="run `testplan judge` again, then sign",
+            )
 
 
 def _differences(stored: list[list[str]], now: list[Item], *, only_stored: bool) -> list[str]:
@@ -308,9 +357,12 @@ def sign(
     campaign: str,
     role: str,
     signer: Signer,
+    printing: dict[str, str] | None = None,
 ) -> Signed:
     """Sign the campaign's records in ``role`` (prepared, reviewed, approved) with the
-    signer's own active key; the role is checked as granted now."""
+    signer's own active key; the role is checked as granted now. The approval also covers
+    ``printing``: the tool version and the SHA-256 of the template set that will print the
+    issued report."""
     if role not in ROLES:
         raise RecordError(
             f"unknown role {role!r}", key="--role", fix="prepared, reviewed or approved"
@@ -364,7 +416,11 @@ def sign(
             key="--as",
         )
     at = utc_now()
-    sig = keys.sign(signer.private_key, message(root, role, camp.reference, person.initials, at))
+    context = signature_context(session, person)
+    if role == "approved" and printing is not None:
+        context["printing"] = printing
+    msg = message(root, role, camp.reference, person.initials, at, context)
+    sig = keys.sign(signer.private_key, msg)
     row = Signature(
         manifest_id=manifest.id,
         role=role,
@@ -372,6 +428,7 @@ def sign(
         key_id=key_row.id,
         signed_at=at,
         signature=sig,
+        context_json=audit.canonical(context),
     )
     session.add(row)
     session.flush()
@@ -468,23 +525,106 @@ def signoff_state(session: Session, campaign: CampaignRecord) -> SignOffState:
     return SignOffState(manifest.root, signers, "approved" in sigs, revision, replaces)
 
 
-def record_issue(
-    session: Session, *, campaign: CampaignRecord, pdf_sha256: str, report_number: str, by: str
-) -> ReportIssue | None:
-    """Keep the issued PDF's SHA-256 when the campaign is approved (drafts are not issued)."""
+def issued_date(session: Session, campaign: CampaignRecord) -> dt.date | None:
+    """The date of issue kept for the campaign's current approved revision, if issued."""
     manifest = approved_manifest(session, campaign.id)
     if manifest is None:
         return None
-    same = session.exec(select(ReportIssue).where(ReportIssue.pdf_sha256 == pdf_sha256)).first()
-    if same is not None:
-        return same  # the same bytes issued again: one record
+    row = session.exec(
+        select(ReportIssue)
+        .where(ReportIssue.manifest_id == manifest.id)
+        .order_by(col(ReportIssue.issued_at))
+    ).first()
+    return row.issue_date if row is not None else None
+
+
+def _check_issue_date(
+    session: Session, campaign: CampaignRecord, manifest: Manifest, day: dt.date
+) -> None:
+    """The date of issue is not before the approval nor before any run's data check."""
+    approval = signatures_of(session, manifest)["approved"].signed_at.astimezone(dt.UTC)
+    checks = [
+        r.checked_at.astimezone(dt.UTC)
+        for r in session.exec(select(RunRecord).where(RunRecord.campaign_id == campaign.id))
+        if r.checked_at is not None
+    ]
+    for what, when in (("approved", approval), ("last data check", max(checks, default=None))):
+        if when is not None and day < when.date():
+            raise RecordError(
+                f"date of issue {day:%Y-%m-%d} is before the campaign's {what} "
+                f"({when:%Y-%m-%d %H:%M} UTC); nothing was issued",
+                key="--issue-date",
+                fix=f"give --issue-date {when:%Y-%m-%d} or later",
+            )
+
+
+def record_issue(
+    session: Session,
+    *,
+    campaign: CampaignRecord,
+    pdf_sha256: str,
+    report_number: str,
+    by: str,
+    issue_date: dt.date | None = None,
+    printing: dict[str, str] | None = None,
+) -> ReportIssue | None:
+    """Keep the issued PDF's SHA-256 when the campaign is approved (drafts are not issued).
+
+    Refuses when the records differ from the approved manifest (naming them) and when the
+    revision was already issued with other bytes: one issued PDF per revision."""
+    manifest = approved_manifest(session, campaign.id)
+    if manifest is None:
+        return None
+    changed = _differences(
+        json.loads(manifest.body_json), compute_items(session, campaign), only_stored=False
+    )
+    if changed:
+        raise RecordError(
+            f"{campaign.reference}: the records differ from the approved manifest "
+            f"({'; '.join(changed[:5])}{'; ...' if len(changed) > 5 else ''}); "
+            "nothing was issued",
+            fix="run `testplan verify` on the last issued PDF and `testplan store check`",
+        )
+    if issue_date is not None:
+        _check_issue_date(session, campaign, manifest, issue_date)
+    approval = signatures_of(session, manifest)["approved"]
+    approved_printing = json.loads(approval.context_json or "{}").get("printing")
+    if printing is not None and approved_printing is not None:
+        if approved_printing["templates_sha256"] != printing["templates_sha256"]:
+            raise RecordError(
+                f"{campaign.reference} was approved for printing with testplan "
+                f"{approved_printing['tool_version']}'s templates (SHA-256 "
+                f"{approved_printing['templates_sha256'][:16]}); these are "
+                f"{printing['templates_sha256'][:16]} (testplan {printing['tool_version']}); "
+                "nothing was issued",
+                fix=f"issue it with testplan {approved_printing['tool_version']}, or amend "
+                "and approve again",
+            )
+    revision = report_revision(session, campaign.id)
+    earlier = session.exec(
+        select(ReportIssue).where(
+            ReportIssue.manifest_id == manifest.id, ReportIssue.revision == revision
+        )
+    ).first()
+    if earlier is not None:
+        if earlier.pdf_sha256 == pdf_sha256:
+            return earlier  # the same bytes printed again: one record
+        when = earlier.issue_date or earlier.issued_at.date()
+        raise RecordError(
+            f"{report_number} revision {revision} was issued on {when:%Y-%m-%d} as PDF "
+            f"SHA-256 {earlier.pdf_sha256[:16]}; this print differs, so it was not issued",
+            key="--issue-date",
+            fix="print it again with the issue date and templates it was issued with, or "
+            f"`testplan amend {campaign.reference} --why ...` for a new revision",
+        )
     row = ReportIssue(
         campaign_id=campaign.id,
         manifest_id=manifest.id,
         report_number=report_number,
-        revision=report_revision(session, campaign.id),
+        revision=revision,
         pdf_sha256=pdf_sha256,
         issued_by=by,
+        issue_date=issue_date,
     )
     session.add(row)
     session.flush()
@@ -495,7 +635,12 @@ def record_issue(
         entity="report_issue",
         entity_id=row.id,
         campaign_id=campaign.id,
-        new={"pdf_sha256": pdf_sha256, "revision": row.revision, "root": manifest.root},
+        new={
+            "pdf_sha256": pdf_sha256,
+            "revision": row.revision,
+            "root": manifest.root,
+            "issue_date": issue_date,
+        },
     )
     return row
 
@@ -545,6 +690,8 @@ def verify(
             f"PDF: issued {issue.report_number} revision {issue.revision} on "
             f"{issue.issued_at:%Y-%m-%d %H:%M UTC}"
         )
+        if audit.entry_of(session, "report_issue", issue.id) is None:
+            problems.append("the issue's audit entry is gone (the trail's tail was cut)")
     if manifest is None:
         problems.append("no signed manifest in the store matches this report")
         return Verification(False, lines + [f"problem: {p}" for p in problems])
@@ -564,7 +711,8 @@ def verify(
         if person is None or key is None or key.person_id != person.id:
             problems.append(f"{role} signature: its key is not registered for the signer")
             continue
-        msg = message(manifest.root, role, camp.reference, person.initials, s.signed_at)
+        context = json.loads(s.context_json) if s.context_json else None
+        msg = message(manifest.root, role, camp.reference, person.initials, s.signed_at, context)
         problem = signature_problem(
             session,
             person=person,
@@ -577,9 +725,21 @@ def verify(
         )
         if problem is not None:
             problems.append(f"{role} signature of {person.initials}: {problem}")
+        elif context is not None and _signature_problems(session, s, person, context):
+            problems.extend(
+                f"{role} signature of {person.initials}: {p}"
+                for p in _signature_problems(session, s, person, context)
+            )
         else:
             lines.append(f"{role}: {person.name} ({person.initials}), key {key.fingerprint[:16]}")
     problems.extend(act_problems(session, camp.id, anchor))
+    times = [(r, sigs[r].signed_at) for r in ORDER if r in sigs]
+    for (before, t0), (after, t1) in zip(times, times[1:], strict=False):
+        if t1 < t0:
+            problems.append(
+                f"{after} signature ({t1:%Y-%m-%d %H:%M} UTC) is dated before the {before} "
+                f"one ({t0:%Y-%m-%d %H:%M} UTC)"
+            )
     amendment = session.exec(
         select(Amendment).where(Amendment.supersedes_manifest_id == manifest.id)
     ).first()
@@ -594,6 +754,22 @@ def verify(
     lines.append(f"manifest root {manifest.root} over {len(stored)} records")
     ok = not problems
     return Verification(ok, lines + [f"problem: {p}" for p in problems])
+
+
+def _signature_problems(
+    session: Session, sig: Signature, person: Person, context: dict[str, Any]
+) -> list[str]:
+    """A signature's context against the store now: the signer's record as signed, the
+    audit chain still holding the head it saw and the entry the signing appended."""
+    out = []
+    if _h(_person_body(person)) != context["signer_sha256"]:
+        out.append("the signer's person record (name or initials) changed since signing")
+    problem = audit.head_problem(session, context["audit_head"])
+    if problem:
+        out.append(problem)
+    if audit.entry_of(session, "signature", sig.id) is None:
+        out.append("its audit entry is gone (the trail's tail was cut)")
+    return out
 
 
 def raise_if_failed(result: Verification) -> None:

@@ -488,6 +488,7 @@ class Signature(SQLModel, table=True):
     key_id: uuid.UUID = Field(foreign_key="person_key.id")
     signed_at: dt.datetime = Field(sa_type=UTCDateTime)
     signature: str = Field(max_length=128)
+    context_json: str | None = Field(default=None, sa_type=sa.Text)  # migration 0014
 
 
 class Amendment(SQLModel, table=True):
@@ -514,6 +515,7 @@ class ReportIssue(SQLModel, table=True):
     pdf_sha256: str = Field(unique=True, max_length=64)
     issued_by: str
     issued_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
+    issue_date: dt.date | None = None  # migration 0014
 
 
 # --- bench page logins (migration 0013) -------------------------------------------------

@@ -232,10 +232,13 @@ def stock(b: Bench) -> Bench:
 RUN = "water-8@ip-verification-1"
 
 
-def record_and_judge(bench: Bench, *, deviation: bool = False) -> Bench:
+def record_and_judge(
+    bench: Bench, *, deviation: bool = False, until_finished: bool = False
+) -> Bench:
     """One run recorded, checked and judged; RP, LV, MO hold enrolled keys (the key
     passphrase comes from $TESTPLAN_KEY_PASSPHRASE, set to PASS by the Bench). With
-    ``deviation`` the run also carries an approved deviation."""
+    ``deviation`` the run also carries an approved deviation; with ``until_finished`` the
+    run is left finished, neither checked nor judged."""
     bench.add("RP", "Rita Pereira", "preparer")
     bench.add("LV", "Lars Vik", "reviewer", "preparer")
     for who in ("RP", "LV"):
@@ -287,6 +290,8 @@ def record_and_judge(bench: Bench, *, deviation: bool = False) -> Bench:
             "--quiet",
         )
     bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
+    if until_finished:
+        return bench
     bench("record", "check", RUN, *bench.signed("MO"), "--at", "2027-01-16T09:00Z", "--quiet")
     bench("judge", "--quiet", ok=False)
     return bench

@@ -73,7 +73,7 @@ def test_an_untouched_store_checks_out(recorded: Bench) -> None:
     result = recorded("store", "check")
     assert result.stdout.strip() == (
         f"ok: {entries} audit entries chained, 1 raw files and their samples, 1 attachments "
-        "match their hashes"
+        "match their hashes, 3 audited records as audited"
     )
     actions = [a for (a,) in recorded.sql("SELECT action FROM audit ORDER BY seq")]
     assert actions[:2] == ["campaign.create", "plan.create"]
@@ -169,4 +169,50 @@ def test_a_changed_photo_is_found(recorded: Bench) -> None:
     recorded.raw("UPDATE attachment SET content = :c", c=b"\x89PNG not the photo")
     assert problems(recorded) == [
         "attachment gland-after-immersion.png: content no longer matches its SHA-256"
+    ]
+
+
+def test_samples_rewritten_with_all_their_hashes_are_found(recorded: Bench) -> None:
+    """Finding 3: samples rewritten together with their block and import hashes before
+    sign-off passed `store check`; the import's audit entry still holds the old hash."""
+    t, c, v = stored_block(recorded)
+    v[2] = 2060.0
+    digest = digest_arrays(t, c, v)
+    recorded.raw(
+        "UPDATE sample_block SET value = :v, sha256 = :h", v=v.astype("<f8").tobytes(), h=digest
+    )
+    recorded.raw("UPDATE raw_file SET samples_sha256 = :h", h=digest)
+    assert problems(recorded) == [
+        f"raw file tank-long.csv of {RUN}: samples_sha256 differs from its audited value"
+    ]
+
+
+def test_a_deleted_import_is_found(recorded: Bench) -> None:
+    """Finding 3: a whole import deleted from a campaign not yet signed went unnamed."""
+    ((raw_id,),) = recorded.sql("SELECT id FROM raw_file")
+    for table in ("sample_block", "logger_channel"):
+        recorded.raw(f"DELETE FROM {table} WHERE raw_file_id = :r", r=raw_id)
+    recorded.raw("DELETE FROM raw_file")
+    only_deleted(recorded, "raw_file", "data.import")
+
+
+def only_deleted(b: Bench, entity: str, action: str) -> None:
+    """`store check` names one record of ``entity`` as deleted without an audit entry."""
+    found = problems(b)
+    assert len(found) == 1 and found[0].startswith(f"{entity} "), found
+    assert found[0].endswith(f", {action}): deleted without an audit entry"), found
+
+
+def test_a_deleted_photo_or_observation_is_found(recorded: Bench) -> None:
+    recorded.raw("UPDATE observation SET attachment_id = NULL")
+    recorded.raw("DELETE FROM attachment")
+    assert problems(recorded) == [f"observation photo in {RUN}: its photo is gone"]
+    recorded.raw("DELETE FROM observation WHERE kind = 'photo'")
+    only_deleted(recorded, "observation", "observation.add")
+
+
+def test_a_changed_observation_is_found(recorded: Bench) -> None:
+    recorded.raw("UPDATE observation SET data_json = replace(data_json, 'false', 'true')")
+    assert problems(recorded) == [
+        f"observation ingress in {RUN}: content differs from its audited state"
     ]

@@ -8,6 +8,7 @@ import pytest
 
 from .conftest import START, Bench
 
+AT = "2027-01-16T09:00Z"  # a data check after the run finished
 RUN = "water-8@ip-verification-1"  # planned 2027-01-12 16:03 to 2027-01-15 16:03, London
 
 
@@ -189,15 +190,20 @@ def test_finish_then_check_by_a_second_person(bench: Bench) -> None:
     )
     bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T16:10Z", "--quiet")
     bench.enrol("AK")
-    line = bench.fail("record", "check", RUN, *bench.signed("AK"))
+    line = bench.fail("record", "check", RUN, *bench.signed("AK"), "--at", AT)
     assert line.startswith("error: --by: Anna Kowal (AK) is not authorised as checker on ")
     assert line.endswith("(a manager grants it with `testplan people grant AK --role checker`)")
     bench("people", "grant", "AK", "--role", "checker", "--why", "trained",
           *bench.signed("QM"), "--quiet")  # fmt: skip
-    assert bench.fail("record", "check", RUN, *bench.signed("AK")) == (
+    assert bench.fail("record", "check", RUN, *bench.signed("AK"), "--at", AT) == (
         "error: --by: AK ran this run; the data check needs a second person"
     )
-    bench("record", "check", RUN, *bench.signed("JT"), "--note", "logs complete", "--quiet")
+    bench(
+        "record",
+        "check",
+        *(RUN, *bench.signed("JT"), "--note", "logs complete", "--at", "2027-01-16T09:00Z"),
+        "--quiet",
+    )
     assert bench.sql("SELECT state, check_note FROM run WHERE key = :k", k=RUN) == [
         ("checked", "logs complete")
     ]

@@ -43,11 +43,11 @@ def test_two_bench_stores_merge_into_the_lab_store(bench: Bench, tmp_path: Path)
     assert again.stdout.startswith("copied 0 rows (")
     # The merged campaign is checked, judged, signed off and its report verifies.
     for run in (RUN_A, RUN_B):
-        bench("record", "check", run, *bench.signed("MO"), "--quiet")
+        bench("record", "check", run, *bench.signed("MO"), "--at", "2027-01-20T09:00Z", "--quiet")
     bench("judge", "--quiet", ok=False)
     sign_off(bench, tmp_path)
     pdf = tmp_path / "merged.pdf"
-    bench("report", "QC-2027-014", "-o", str(pdf), "--quiet")
+    bench("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01", "--quiet")
     assert "verified" in bench("verify", str(pdf)).stdout
 
 
@@ -77,6 +77,71 @@ def test_a_run_recorded_at_two_benches_is_a_conflict(bench: Bench, tmp_path: Pat
         "which record is right in one store, then copy again)"
     )
     assert bench.sql("SELECT count(*) FROM audit") == before
+
+
+@pytest.mark.parametrize(
+    ("statement", "named"),
+    [
+        # an approved verdict from fail to pass, in the bench's file
+        ("UPDATE verdict SET outcome = 'pass' WHERE outcome <> 'pass'", "verdict "),
+        # an ingress result flipped
+        (
+            "UPDATE observation SET data_json = replace(data_json, 'false', 'true')",
+            "observation ",
+        ),
+    ],
+)
+def test_a_bench_store_edited_outside_testplan_does_not_merge(
+    judged: Bench,  # noqa: F811
+    tmp_path: Path,
+    statement: str,
+    named: str,
+) -> None:
+    """Finding 4: the edited rows were "taken from the source" and the lab's check stayed
+    clean."""
+    if not judged.url.startswith("sqlite"):
+        pytest.skip("the edited bench store is an SQLite file")
+    approve_and_issue(judged)
+    other = Bench(f"sqlite:///{tmp_path / 'bench-x.db'}", tmp_path)
+    judged.plain("store", "copy", "--from", judged.url, "--to", other.url, "--quiet")
+    for trigger in other.sql("SELECT name FROM sqlite_master WHERE type = 'trigger'"):
+        other.raw(f"DROP TRIGGER {trigger[0]}")
+    other.raw(statement)
+    before = judged.sql("SELECT outcome FROM verdict ORDER BY id")
+    line = judged.fail("store", "copy", "--from", other.url, "--to", judged.url, db=False)
+    assert line.startswith(f"error: --from: {named}")
+    assert (
+        "differs between the stores while its audit history is the same: it was changed "
+        "outside testplan; nothing was copied" in line
+    )
+    assert judged.sql("SELECT outcome FROM verdict ORDER BY id") == before
+
+
+@pytest.mark.postgres
+def test_a_bench_store_merges_back_into_postgresql(
+    judged: Bench,  # noqa: F811
+    tmp_path: Path,
+) -> None:
+    """Finding 4: bench -> PostgreSQL failed as a false conflict (audit ids written
+    differently by the two engines)."""
+    if not PG_URL or not judged.url.startswith("sqlite"):
+        pytest.skip("needs the SQLite store and a PostgreSQL server")
+    url, admin, name = fresh_postgres_database()
+    lab = Bench(url, tmp_path)
+    try:
+        judged.plain("store", "copy", "--from", judged.url, "--to", url, "--quiet")
+        bench_store = Bench(f"sqlite:///{tmp_path / 'bench-y.db'}", tmp_path)
+        lab.plain("store", "copy", "--from", url, "--to", bench_store.url, "--quiet")
+        bench_store.add("ZZ", "Zia Zorn", "operator")
+        bench_store("people", "grant", "AK", "--role", "checker", "--why", "trained",
+                    *bench_store.signed("QM"), "--quiet")  # fmt: skip
+        lab.plain("store", "copy", "--from", bench_store.url, "--to", url, "--quiet")
+        assert lab.sql("SELECT name FROM person WHERE initials = 'ZZ'") == [("Zia Zorn",)]
+        assert lab("store", "check").stdout.startswith("ok: ")
+    finally:
+        with admin.connect() as conn:
+            conn.exec_driver_sql(f'DROP DATABASE "{name}" WITH (FORCE)')
+        admin.dispose()
 
 
 @pytest.mark.postgres

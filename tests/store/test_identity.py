@@ -21,6 +21,8 @@ from testplan.keys import fingerprint, new_private_pem
 from .conftest import MANAGER, PASS, RUN, Bench, approve_and_issue, record_and_judge, sign
 from .test_signoff import problems
 
+AT = "2027-01-16T09:00Z"  # a data check after the run finished
+
 
 @pytest.fixture
 def judged(bench: Bench) -> Bench:
@@ -190,7 +192,19 @@ def test_a_key_with_another_passphrase_or_type_is_one_line(bench: Bench) -> None
 
     line = bench.runner.invoke(
         __import__("testplan.cli", fromlist=["app"]).app,
-        ["record", "check", RUN, "--by", "MO", "--key", bench.key("MO"), "--db", bench.url],
+        [
+            "record",
+            "check",
+            RUN,
+            "--at",
+            AT,
+            "--by",
+            "MO",
+            "--key",
+            bench.key("MO"),
+            "--db",
+            bench.url,
+        ],
         env={"TESTPLAN_KEY_PASSPHRASE": "another passphrase"},
     )
     assert line.exit_code == 1 and "wrong passphrase" in line.stderr
@@ -202,9 +216,9 @@ def test_a_key_with_another_passphrase_or_type_is_one_line(bench: Bench) -> None
     )
     path = bench.folder / "ec.pem"
     path.write_bytes(ec_key)
-    assert bench.fail("record", "check", RUN, "--by", "MO", "--key", str(path)).endswith(
-        "--key: not an Ed25519 key"
-    )
+    assert bench.fail(
+        "record", "check", RUN, "--at", AT, "--by", "MO", "--key", str(path)
+    ).endswith("--key: not an Ed25519 key")
 
 
 # --- attributed acts ----------------------------------------------------------------------
@@ -214,12 +228,12 @@ def test_a_data_check_is_signed_by_the_checker(bench: Bench) -> None:
     bench("record", "start", RUN, *START_AK, "--at", "2027-01-12T16:05Z", "--quiet")
     bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
     # the issue's attack: typed initials with no key
-    assert bench.fail("record", "check", RUN, "--by", "MO") == (
+    assert bench.fail("record", "check", RUN, "--at", AT, "--by", "MO") == (
         "error: --key: MO signs this with their own key (give --key FILE (or set $TESTPLAN_KEY))"
     )
-    line = bench.fail("record", "check", RUN, "--by", "MO", "--key", bench.key("JT"))
+    line = bench.fail("record", "check", RUN, "--at", AT, "--by", "MO", "--key", bench.key("JT"))
     assert "is the key of Jo Tran (JT), not of Mark Osei (MO)" in line
-    bench("record", "check", RUN, *bench.signed("MO"), "--quiet")
+    bench("record", "check", RUN, "--at", AT, *bench.signed("MO"), "--quiet")
     [(signature,)] = bench.sql("SELECT check_signature FROM run WHERE key = :k", k=RUN)
     [(actor,)] = bench.sql("SELECT actor FROM audit WHERE action = 'run.check'")
     assert signature and actor.startswith("MO key ")

@@ -7,6 +7,8 @@ import json
 import shutil
 from pathlib import Path
 
+import pytest
+
 from .conftest import START, Bench
 
 RUN = "water-8@ip-verification-1"
@@ -164,3 +166,42 @@ def test_option_refusals(bench: Bench) -> None:
     assert "error: --rating: 11 is above 10" in bench.fail(
         "record", "observe", RUN, "--rating", "11", "--by", "AK"
     )
+
+
+@pytest.mark.parametrize(
+    ("name", "content", "why"),
+    [
+        ("notes.jpg", b"not a photo at all", "not a JPEG, PNG, WebP, TIFF or HEIC image"),
+        ("gland\u202egnp.exe", PHOTO.read_bytes(), "its name holds the character U+202E"),
+        ("tab\tname.png", PHOTO.read_bytes(), "its name holds the character U+0009"),
+        ("folder.png", None, "not a regular file"),
+    ],
+)
+def test_only_image_files_are_taken_as_photos(
+    bench: Bench, name: str, content: bytes | None, why: str
+) -> None:
+    bench("record", "start", RUN, *START, "--quiet")
+    path = bench.folder / name
+    if content is None:
+        path.mkdir()
+    else:
+        path.write_bytes(content)
+    line = bench.fail("record", "observe", RUN, "--photo", str(path), "--by", "AK")
+    shown = path.with_name(name.encode("unicode_escape").decode("ascii"))
+    assert line.startswith(f"error: {shown}: photo.file: not taken as a photo: {why}"), line
+    assert bench.sql("SELECT count(*) FROM attachment") == [(0,)]
+
+
+def test_image_types_by_their_first_bytes() -> None:
+    from testplan.domain.observations import photo_type
+
+    # source: JPEG (ITU-T T.81), PNG (ISO/IEC 15948), RIFF WebP, TIFF 6.0 and ISO/IEC 23008-12
+    # file signatures (from memory)
+    assert photo_type(b"\xff\xd8\xff\xe0\x00\x10JFIF") == "image/jpeg"
+    assert photo_type(b"\x89PNG\r\n\x1a\n\x00\x00") == "image/png"
+    assert photo_type(b"RIFF\x10\x00\x00\x00WEBPVP8 ") == "image/webp"
+    assert photo_type(b"II*\x00\x08\x00\x00\x00") == "image/tiff"
+    assert photo_type(b"MM\x00*\x00\x00\x00\x08") == "image/tiff"
+    assert photo_type(b"\x00\x00\x00\x18ftypheic") == "image/heic"
+    assert photo_type(b"%PDF-1.7") is None
+    assert photo_type(b"\x00\x00\x00\x18ftypisom") is None  # an MP4 video
