@@ -48,6 +48,8 @@ FIELD_OF = {
     "--key": "key",
     "--approved-by": "approver",
     "--reason": "reason",
+    "--why": "why",
+    "IMPORT": "why",
     "key": "key",
     "password": "password",
     "photo": "photo",
@@ -483,6 +485,23 @@ class BenchApp:
 
     # --- observations ----------------------------------------------------------------
 
+    async def withdraw(self, request: Request, me: BenchSession) -> Response:
+        """Withdraw a wrong import until the data check, as ``record withdraw`` does."""
+        from testplan.store import imports, records
+
+        key = request.path_params["key"]
+        form = request.state.form
+        import_id, why = _text(form, "import"), _text(form, "why")
+
+        def unit(session: Session) -> None:
+            run = records.find_run(session, key)
+            imports.withdraw_import(session, run=run, import_id=import_id, why=why, by=me.initials)
+
+        _, errors = self.act(request, unit)
+        return await self.run_page(
+            request, me, errors, 400 if errors else 200, [] if errors else ["import withdrawn"]
+        )
+
     async def observe(self, request: Request, me: BenchSession) -> Response:
         from testplan.domain.observations import KINDS, check_entry
         from testplan.store import records
@@ -692,6 +711,7 @@ def make_app(
         Route("/run/{key}/check", g(bench.check, write=True), methods=["POST"]),
         Route("/run/{key}/deviation", g(bench.deviation, write=True), methods=["POST"]),
         Route("/run/{key}/observe", g(bench.observe, write=True), methods=["POST"]),
+        Route("/run/{key}/withdraw", g(bench.withdraw, write=True), methods=["POST"]),
         Route("/run/{key}/logger", g(bench.logger_upload, write=True), methods=["POST"]),
         Route("/run/{key}/logger/{token}", g(bench.logger_preview, write=False), methods=["GET"]),
         Route("/run/{key}/logger/{token}", g(bench.logger_import, write=True), methods=["POST"]),

@@ -100,3 +100,47 @@ def test_a_logger_file_larger_than_the_preview_window_is_previewed_and_imported_
     )  # fmt: skip
     assert "imported 45000 samples from long-log.csv" in reply.text
     assert bench.sql("SELECT size FROM raw_file") == [(len(content),)]
+
+
+def test_a_wrong_import_is_withdrawn_from_the_run_page_with_a_reason(
+    client: TestClient, bench: Bench
+) -> None:
+    from tests.web.conftest import START_FORM
+
+    content = (
+        b"time,channel,value\n2027-01-12T16:05:00Z,level,205.4\n2027-01-12T16:05:01Z,level,205.5\n"
+    )
+    csrf = log_in(client, "AK")
+    ticks = {f"item_{i}": "ok" for i in range(1, 10)}
+    client.post(f"/run/{RUN}/start", data={"csrf": csrf, **START_FORM, **ticks})
+    where = client.post(
+        f"/run/{RUN}/logger",
+        data={"csrf": csrf},
+        files={"file": ("wrong-log.csv", content, "text/csv")},
+        follow_redirects=False,
+    ).headers["location"]
+    client.post(
+        where,
+        data={"csrf": csrf, "source": ["level"], "quantity_0": "lowest_point_depth",
+              "unit_0": "cm", "equipment_0": "LT-03"},
+    )  # fmt: skip
+    [(import_id,)] = bench.sql("SELECT id FROM raw_file")
+    page = client.get(f"/run/{RUN}").text
+    assert "Withdraw the import" in page
+    # no reason: refused beside the field, nothing changed
+    reply = client.post(f"/run/{RUN}/withdraw", data={"csrf": csrf, "import": str(import_id)})
+    assert reply.status_code == 400 and "say why the import is withdrawn" in reply.text
+    assert bench.sql("SELECT withdrawn_at FROM raw_file") == [(None,)]
+    # without the form's token: refused
+    reply = client.post(f"/run/{RUN}/withdraw", data={"import": str(import_id), "why": "x"})
+    assert reply.status_code == 403
+    reply = client.post(
+        f"/run/{RUN}/withdraw",
+        data={"csrf": csrf, "import": str(import_id), "why": "logger of the other tank"},
+    )
+    assert reply.status_code == 200 and "import withdrawn" in reply.text
+    assert "(withdrawn by AK: logger of the other tank)" in reply.text
+    assert bench.sql("SELECT withdrawn_by, withdrawn_why FROM raw_file") == [
+        ("AK", "logger of the other tank")
+    ]
+    assert "Withdraw the import" not in reply.text  # nothing left to withdraw
