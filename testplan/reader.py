@@ -73,6 +73,7 @@ SECTIONS: dict[str, dict[str, bool]] = {
         "service_water": False,
         "test_implied": False,
         "spray_method": False,
+        "tube_holes_4k": False,
     },
     "acceptance": {
         "water_ingress": False,
@@ -397,6 +398,7 @@ def _read_target(r: _Reader) -> Target:
             if "spray_method" in sec
             else None
         ),
+        tube_holes_4k=r.integer(sec, "tube_holes_4k", p, minimum=1, maximum=1000),
     )
 
 

@@ -423,3 +423,21 @@ def test_spray_method_other_than_tube_or_nozzle_is_one_line() -> None:
         campaign(target={"code": "IPX4", "spray_method": "hose"})
     assert info.value.key == "target.spray_method"
     assert "'tube', 'nozzle'" in info.value.one_line()
+
+
+def test_splash_4k_flow_from_the_tube_open_holes_is_planned_and_judged_per_period() -> None:
+    # source: ISO 20653 4K pressurised splash, 0.6 L/min per hole +/-5 % (per-hole basis from
+    # memory)
+    p = plan(target={"code": "IPX4K", "tube_holes_4k": 25})
+    assert value(p, "water-4k", "tube_flow") == pytest.approx(15.0)
+    [flow] = [c for c in p.procedure("water-4k").criteria if c.id == "water-4k.flow"]
+    assert flow.quantity == "tube_flow" and flow.when == "per_period"
+    assert flow.min == pytest.approx(14.25)
+    assert flow.max == pytest.approx(15.75)
+
+
+def test_splash_4k_without_the_tube_holes_is_refused_naming_the_key() -> None:
+    with pytest.raises(PlanningError) as info:
+        plan(target={"code": "IPX4K"})
+    assert info.value.key == "target.tube_holes_4k"
+    assert "open holes" in info.value.message

@@ -58,6 +58,7 @@ class Target:
     service_water: str = "fresh"
     test_implied: bool = False
     spray_method: str | None = None
+    tube_holes_4k: int | None = None  # open holes of the 4K tube; its flow is per hole
 
 
 @dataclass(frozen=True)

@@ -1110,6 +1110,38 @@ def _ipx8(campaign: Campaign) -> tuple[list[Parameter], list[Criterion], float, 
     return p, c, hours, "14.2.8"
 
 
+SPLASH_4K_FLOW_PER_HOLE = 0.6  # L/min per open hole, +/-5 %
+
+
+def _splash_4k_flow(holes: int | None) -> tuple[Parameter, Criterion]:
+    """The 4K tube's total flow from its open holes: 0.6 L/min each, +/-5 %.
+
+    The hole count belongs to the lab's tube, so it must come from the campaign file.
+    Raises PlanningError without it.
+    """
+    if holes is None:
+        raise PlanningError(
+            "the 4K splash test's flow is set per open hole of the tube, and the number of "
+            "open holes is not given",
+            key="target.tube_holes_4k",
+            fix="give the open holes of the lab's 4K tube, e.g. tube_holes_4k = 25 in [target]",
+        )
+    total = SPLASH_4K_FLOW_PER_HOLE * holes
+    lo, hi = round(total * 0.95, 4), round(total * 1.05, 4)
+    flow = Parameter(
+        "tube_flow",
+        value=round(total, 4),
+        unit="L/min",
+        tolerance="+/-5 %",
+        text=f"{holes} open holes x {SPLASH_4K_FLOW_PER_HOLE} L/min",
+        provenance="from memory",
+    )
+    band = Criterion(
+        "water-4k.flow", "tube_flow", "between", "per_period", unit="L/min", min=lo, max=hi
+    )
+    return flow, band
+
+
 @dataclass(frozen=True)
 class KForm:
     """An ISO 20653 water test (K-form): parameters, duration and flow band."""
@@ -1204,6 +1236,10 @@ def _water_procedures(campaign: Campaign) -> list[Procedure]:
                         f"{pid}.flow", "flow", "between", "per_period", unit="L/min", min=lo, max=hi
                     ),
                 )
+            if n == 4:
+                flow, band = _splash_4k_flow(campaign.target.tube_holes_4k)
+                params.append(flow)
+                crit.insert(0, band)
             if n == 9:
                 crit.insert(
                     1,

@@ -55,6 +55,7 @@ def campaign_summary(c: Campaign) -> dict[str, Any]:
             "service_water": t.service_water,
             "test_implied": t.test_implied,
             "spray_method": t.spray_method,
+            "tube_holes_4k": t.tube_holes_4k,
         },
     }
 
