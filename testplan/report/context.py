@@ -123,6 +123,10 @@ class ReportContext:
     reader_guidance: str
     calendar_svg: str | None
     signatures: list[Row]
+    conformity: list[Row] = field(default_factory=list)
+    not_performed: list[str] = field(default_factory=list)
+    deviations: list[str] = field(default_factory=list)
+    decision_explained: str = ""
     replaces: str | None = None
     tool_version: str = __version__
     manifest_root: str | None = None
@@ -285,6 +289,48 @@ def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
     )
 
 
+DECISION_EXPLAINED = (
+    "How to read the verdicts. A test condition (depth, flow, temperature, duration and the "
+    "like) that is not held makes the run invalid for the specimens in it: the test is "
+    "repeated as a new run, and the product is not judged on it, unless a deviation accepted "
+    "by an authorised approver covers it. A product criterion (ingress, function, insulation, "
+    "leak, corrosion, failures) that is not met fails that specimen only. A claim is met when "
+    "every run it rests on passed, not met when one of its specimens failed, and not "
+    "evaluated otherwise. Under guarded acceptance the acceptance limit lies inside the "
+    "specification limit by w = r x U, U the expanded uncertainty for a coverage probability "
+    "of about 95 % (k = 2 unless stated): inside the acceptance limit is a pass; between the "
+    "acceptance and specification limits a conditional pass (compliance likely but not shown "
+    "with that probability); beyond the specification limit by up to w a conditional fail; "
+    "further a fail."
+)
+
+
+def _conformity(roll: dict[str, Any]) -> list[Row]:
+    """One row per declared claim: claim, statement, the runs it rests on or why not."""
+    return [
+        Row(
+            [c["claim"], c["status"], ", ".join(c["runs"]) or "-", c["reason"] or "-"],
+            outcome=c["status"],
+        )
+        for c in roll.get("claims", [])
+    ]
+
+
+def _deviation_lines(data: ReportData) -> list[str]:
+    """Every deviation of the campaign, one line each, and each invalidated run."""
+    out = []
+    for r in data.runs:
+        for d, who in r.deviations:
+            covers = f"; accepts {d.criterion_key}" if d.criterion_key else ""
+            out.append(
+                f"{r.run.key}: {d.description} (reason: {d.reason}; approved by "
+                f"{who.initials}{covers})"
+            )
+        if r.run.invalid_reason:
+            out.append(f"{r.run.key}: invalid, {r.run.invalid_reason}")
+    return out
+
+
 def _basis(detail: str) -> str:
     """The verdict's detail without the 'value against limit' its own columns show."""
     head, sep, rest = detail.partition("; ")
@@ -343,9 +389,10 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
         for s in receipt.values()
     ]
     roll = data.rollup
-    legs = [Row([leg, OUTCOME_TEXT[o]], outcome=o) for leg, o in roll["legs"].items()]
+    legs = [Row([leg, OUTCOME_TEXT.get(o, o)], outcome=o) for leg, o in roll["legs"].items()]
+    spec_text = roll.get("specimen_text", {})
     spec_rows = [
-        Row([s, receipt[s].leg if s in receipt else "", OUTCOME_TEXT[o]], outcome=o)
+        Row([s, receipt[s].leg if s in receipt else "", spec_text.get(s, o)], outcome=o)
         for s, o in roll["specimens"].items()
     ]
     run_rows = []
@@ -357,7 +404,7 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
                     r.run.key,
                     ", ".join(r.specimens),
                     f"{_date(r.run.started_at)[:10]} to {_date(r.run.finished_at)[:10]}",
-                    OUTCOME_TEXT[o],
+                    OUTCOME_TEXT.get(o, o),
                 ],
                 outcome=o,
             )
@@ -403,7 +450,7 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
         summary_legs=legs,
         summary_specimens=spec_rows,
         summary_runs=run_rows,
-        campaign_outcome=OUTCOME_TEXT[roll["campaign"]],
+        campaign_outcome=OUTCOME_TEXT.get(roll["campaign"], roll["campaign"]),
         runs=runs,
         standards=[Row([n, e]) for n, e in standards],
         customer_data=customer,
@@ -413,5 +460,11 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
         reader_guidance=READER_GUIDANCE,
         calendar_svg=calendar,
         signatures=signatures,
+        conformity=_conformity(roll),
+        not_performed=[
+            f"{p['run']} ({', '.join(p['specimens'])})" for p in roll.get("not_performed", [])
+        ],
+        deviations=_deviation_lines(data),
+        decision_explained=DECISION_EXPLAINED,
         figure_count=figure_no - 1,
     )

@@ -627,6 +627,7 @@ def _state(run: RunRecord, allowed: Sequence[str], doing: str) -> None:
             "finished": "it is finished",
             "checked": "it is finished and its data checked",
             "withdrawn": "it was withdrawn from the plan",
+            "invalid": "it was declared invalid and a repeat planned",
         }[run.state]
         raise RecordError(f"cannot {doing} run {run.key}: {told}", key="RUN")
 
@@ -775,12 +776,22 @@ def add_deviation(
     reason: str,
     approver: str,
     recorded_by: str,
+    covers: str | None = None,
 ) -> Deviation:
-    """A departure from the method, allowed only with an authorised approver and a reason."""
+    """A departure from the method, allowed only with an authorised approver and a reason;
+    ``covers`` names the condition criterion whose failure it accepts."""
     _open(session, run.campaign_id)
     _state(run, ("planned", "running", "finished"), "record a deviation on")
     if not description.strip() or not reason.strip():
         raise RecordError("a deviation needs a description and a reason", key="--reason")
+    if covers is not None:
+        known = [c["id"] for c in run_procedure(session, run).get("criteria", [])]
+        if covers not in known:
+            raise RecordError(
+                f"run {run.key} has no criterion {covers!r}",
+                key="--covers",
+                fix=f"one of: {', '.join(known)}",
+            )
     by = find_person(session, recorded_by)
     approved = require_role(session, approver, "approver", key="--approved-by")
     row = Deviation(
@@ -789,6 +800,7 @@ def add_deviation(
         reason=reason,
         approved_by_id=approved.id,
         recorded_by_id=by.id,
+        criterion_key=covers,
     )
     session.add(row)
     session.flush()
@@ -800,7 +812,12 @@ def add_deviation(
         entity_id=row.id,
         campaign_id=run.campaign_id,
         why=reason,
-        new={"run": run.key, "description": description, "approved_by": approved.initials},
+        new={
+            "run": run.key,
+            "description": description,
+            "approved_by": approved.initials,
+            "covers": covers,
+        },
     )
     return row
 

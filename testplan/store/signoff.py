@@ -299,7 +299,7 @@ def _ready(session: Session, campaign: CampaignRecord) -> None:
     if not runs:
         raise RecordError(f"{campaign.reference} has no run carried out to sign for")
     for run in runs:
-        if run.state != "checked":
+        if run.state not in ("checked", "invalid"):  # an invalid run is judged when declared
             raise RecordError(
                 f"run {run.key} is {run.state}; every run must be finished and its data "
                 "checked before sign-off",

@@ -63,6 +63,7 @@ class Person(SQLModel, table=True):
     initials: str = Field(unique=True, max_length=16)
     name: str
     public_key: str | None = None
+    title: str | None = None
     created_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
 
 
@@ -212,6 +213,8 @@ class RunRecord(SQLModel, table=True):
     checked_at: dt.datetime | None = Field(default=None, sa_type=UTCDateTime)
     check_note: str | None = None
     external_provider: str | None = None
+    invalid_reason: str | None = None
+    repeat_of_id: uuid.UUID | None = Field(default=None, foreign_key="run.id")
 
 
 class RunSpecimen(SQLModel, table=True):
@@ -239,6 +242,7 @@ class Deviation(SQLModel, table=True):
     approved_by_id: uuid.UUID = Field(foreign_key="person.id")
     recorded_by_id: uuid.UUID = Field(foreign_key="person.id")
     recorded_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
+    criterion_key: str | None = None
 
 
 class AuditEntry(SQLModel, table=True):
