@@ -49,6 +49,7 @@ from testplan.store.tables import (
 )
 
 JUDGEABLE = ("finished", "checked")
+RETESTS = ("seal_ingress_retest", "ingress_retest")
 
 
 def _plan(session: Session, run: RunRecord) -> dict[str, Any]:
@@ -234,11 +235,21 @@ def interpret_endurance(data: J.RunData, verdicts: list[J.Verdict]) -> dict[str,
         return None
     fails = [o for o in data.observations if o.kind == "failure"]
     failed_at = {o.specimen: float(o.data["cycles"]) for o in fails if o.specimen}
+    # The failure definition counts ingress at the seal retest as a failure (by the end).
+    leaked = sorted(
+        {
+            v.specimen
+            for v in verdicts
+            if v.quantity in RETESTS and v.outcome == J.FAIL and v.specimen
+        }
+        - set(failed_at)
+    )
     cycles = [min(failed_at.get(s, reached), reached) for s in data.specimens]
+    n_fail = len(fails) + len(leaked)
     rated = float(params["rated_cycles"]["value"])
     confidence = float(params["confidence"]["value"])
     shape = float(params["weibull_shape"]["value"])
-    r = demonstrated_reliability(cycles, rated, confidence, shape, len(fails))
+    r = demonstrated_reliability(cycles, rated, confidence, shape, n_fail)
     return {
         "kind": "interpretation",
         "what": "demonstrated reliability",
@@ -247,11 +258,13 @@ def interpret_endurance(data: J.RunData, verdicts: list[J.Verdict]) -> dict[str,
         "rated_cycles": rated,
         "weibull_shape": shape,
         "cycles_per_specimen": cycles,
-        "failures": len(fails),
+        "failures": n_fail,
+        "retest_failures": leaked,
         "text": (
             f"Interpretation, not a measured result: {len(cycles)} specimen(s) reaching "
-            f"{', '.join(f'{c:.0f}' for c in cycles)} cycles with {len(fails)} failure(s) "
-            f"demonstrate a reliability of at least {r:.3f} at {rated:.0f} cycles with "
+            f"{', '.join(f'{c:.0f}' for c in cycles)} cycles with {n_fail} failure(s) "
+            + (f"(ingress at the seal retest: {', '.join(leaked)}) " if leaked else "")
+            + f"demonstrate a reliability of at least {r:.3f} at {rated:.0f} cycles with "
             f"{confidence:.0%} confidence, assuming a Weibull shape of {shape:g} "
             "(customer-supplied)."
         ),
@@ -274,6 +287,8 @@ def judge_one(session: Session, run: RunRecord, actor: str) -> RunJudgement:
         data.started_at,
         data.finished_at,
         __version__,
+        # Later water tests decide a retest criterion: a new one is new evidence.
+        sorted([spec, list(map(list, found))] for spec, found in data.later_ingress.items()),
     ]
     inputs = _hash(base + sorted({s for v in verdicts for s in v.sources}))
     outcome = J.worst([v.outcome for v in verdicts])

@@ -137,7 +137,7 @@ def load_report(session: Session, campaign: str | None) -> ReportData:
                 .order_by(col(Deviation.recorded_at))
             ).all()
         ]
-        finished = run.state in ("finished", "checked")
+        finished = run.state in ("finished", "checked", "invalid")
         runs.append(
             RunRecordData(
                 run=run,
