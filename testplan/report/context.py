@@ -11,6 +11,7 @@ from __future__ import annotations
 import base64
 import datetime as dt
 import json
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
@@ -339,8 +340,15 @@ def _basis(detail: str) -> str:
     return detail
 
 
-def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext:
-    """Shape the loaded campaign into the report's context."""
+def build(
+    data: ReportData,
+    *,
+    issue_date: dt.date,
+    paper: str,
+    progress: Callable[[int, str], None] | None = None,
+) -> ReportContext:
+    """Shape the loaded campaign into the report's context; ``progress(n, run)`` is called
+    as each run's section (with its plots) is done."""
     from testplan.report.chart import calendar_chart
 
     camp, plan = data.plan["campaign"], data.plan
@@ -352,6 +360,8 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
         figure_no += len(section.figures)
         photo_no += len(section.photos)
         runs.append(section)
+        if progress is not None:
+            progress(len(runs), section.key)
     run_procs = {r.run.procedure_key for r in data.runs}
     used = [procs[p] for p in procs if p in run_procs] or [
         p for p in plan["procedures"] if p["status"] == "planned"

@@ -132,6 +132,9 @@ def report(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[str], P
     pdf.parent.mkdir()
     result = b("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01")
     assert result.stdout.strip() == f"wrote {pdf}"
+    # Progress on stderr while it renders: each run's section with its plots, then printing.
+    assert "run 1 of 2 drawn: " in result.stderr and "run 2 of 2 drawn: " in result.stderr
+    assert result.stderr.index("run 2 of 2") < result.stderr.index("printing the PDF")
     reader = PdfReader(pdf)
     pages = [" ".join(p.extract_text().split()) for p in reader.pages]
     return pdf, pages, reader
