@@ -18,9 +18,9 @@ S=QC-2027-014-S
 # People and what each is authorised for.
 testplan people add AK --name "Anna Kowal" --role operator $q
 testplan people add JT --name "Jo Tran" --role operator --role checker --by AK $q
-testplan people add MO --name "Mark Osei" --role checker --role approver --by AK $q
-testplan people add RP --name "Rita Pereira" --role preparer --by MO $q
-testplan people add LV --name "Lars Vik" --role reviewer --by MO $q
+testplan people add MO --name "Mark Osei" --role checker --role approver --by AK --title "quality manager" $q
+testplan people add RP --name "Rita Pereira" --role preparer --by MO --title "test engineer" $q
+testplan people add LV --name "Lars Vik" --role reviewer --by MO --title "technical reviewer" $q
 
 testplan init "$here/flood-gauge-node.toml" --by AK $q
 testplan record receive ${S}01 ${S}02 ${S}03 ${S}04 ${S}05 ${S}06 --on 2027-01-06 \

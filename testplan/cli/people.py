@@ -32,6 +32,9 @@ def add_command(
     name: Annotated[str, typer.Option("--name", help="Full name.")],
     role: Annotated[list[str], typer.Option("--role", help=ROLE_HELP)],
     by: Annotated[str | None, typer.Option("--by", help="Initials of who is adding.")] = None,
+    title: Annotated[
+        str | None, typer.Option("--title", help="Job title, printed beside a signature.")
+    ] = None,
     db: DbOption = None,
     quiet: QuietOption = False,
 ) -> None:
@@ -45,7 +48,9 @@ def add_command(
 
     def unit(session: Session) -> Person:
         actor = records.actor_for(session, by)
-        return records.add_person(session, initials=initials, name=name, roles=role, actor=actor)
+        return records.add_person(
+            session, initials=initials, name=name, roles=role, actor=actor, title=title
+        )
 
     person = store.write(unit)
     typer.echo(f"added {person.initials} ({person.name}): {', '.join(sorted(set(role)))}")

@@ -125,6 +125,7 @@ class ReportContext:
     calendar_svg: str | None
     signatures: list[Row]
     conformity: list[Row] = field(default_factory=list)
+    signed_by: list[Row] = field(default_factory=list)
     not_performed: list[str] = field(default_factory=list)
     deviations: list[str] = field(default_factory=list)
     decision_explained: str = ""
@@ -439,6 +440,11 @@ def build(
         calendar = text[text.index("<svg") :]
     state = data.signoff
     signatures = [Row([role, who, at, fp]) for role, who, at, fp in state.signers]
+    titles = data.extras.get("titles", {})
+    signed_by = [
+        Row([role, who, titles.get(who.rpartition("(")[2].rstrip(")"), "-"), at])
+        for role, who, at, _ in state.signers
+    ]
     return ReportContext(
         title=camp["title"],
         report_number=f"TR-{camp['reference']}",
@@ -471,6 +477,7 @@ def build(
         calendar_svg=calendar,
         signatures=signatures,
         conformity=_conformity(roll),
+        signed_by=signed_by,
         not_performed=[
             f"{p['run']} ({', '.join(p['specimens'])})" for p in roll.get("not_performed", [])
         ],

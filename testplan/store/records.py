@@ -105,13 +105,19 @@ def actor_for(session: Session, initials: str | None) -> str:
 
 
 def add_person(
-    session: Session, *, initials: str, name: str, roles: Sequence[str], actor: str
+    session: Session,
+    *,
+    initials: str,
+    name: str,
+    roles: Sequence[str],
+    actor: str,
+    title: str | None = None,
 ) -> Person:
     if session.exec(select(Person).where(Person.initials == initials)).first():
         raise RecordError(f"{initials!r} is already in the people register", key="INITIALS")
     for role in roles:
         _check_role(role)
-    person = Person(initials=initials, name=name)
+    person = Person(initials=initials, name=name, title=title)
     session.add(person)
     session.flush()
     for role in sorted(set(roles)):
@@ -122,7 +128,7 @@ def add_person(
         action="person.add",
         entity="person",
         entity_id=person.id,
-        new={"initials": initials, "name": name, "roles": sorted(set(roles))},
+        new={"initials": initials, "name": name, "roles": sorted(set(roles)), "title": title},
     )
     return person
 

@@ -163,6 +163,7 @@ def load_report(session: Session, campaign: str | None) -> ReportData:
         )
     from testplan.store.signoff import signoff_state
 
+    titles = {p.initials: p.title for p in session.exec(select(Person)).all() if p.title}
     return ReportData(
         signoff=signoff_state(session, camp),
         campaign=camp,
@@ -172,5 +173,5 @@ def load_report(session: Session, campaign: str | None) -> ReportData:
         runs=runs,
         rollup=rollup(session, camp).to_json(),
         rule=rule_of(plan),
-        extras={"generated": dt.datetime.now(dt.UTC)},
+        extras={"generated": dt.datetime.now(dt.UTC), "titles": titles},
     )
