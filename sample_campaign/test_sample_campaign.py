@@ -78,12 +78,13 @@ def test_demo_bench_work_records_its_runs_judges_them_and_checks_out(tmp_path: P
     assert "IP6X not evaluated dust-6@ip-verification-1" in first
     assert "salt mist, IEC 60068-2-52 not met" in first  # S04's ingress at the retest
     assert "quality manager" in first  # the approver's job title beside the signature
+    assert "N·mm" in " ".join(p.extract_text() for p in PdfReader(tmp_path / "report.pdf").pages)
     summary = " ".join(
         " ".join(p.extract_text().split()) for p in PdfReader(tmp_path / "report.pdf").pages[:3]
     )
     assert "water-8@aged-1: invalid, tank level drawn down below the declared depth" in summary
     assert "invalid, repeated as water-8@aged-1-repeat2" in summary
-    assert "salt-mist@aged-1: cabinet temperature 34.4 to 35.7 degC" in summary
+    assert "salt-mist@aged-1: cabinet temperature 34.4 to 35.7 °C" in summary
     # The reliability interpretation counts S04's ingress at the seal retest as a failure.
     assert any(
         "with 1 failure(s) (ingress at the seal retest: QC-2027-014-S04)" in ln for ln in lines

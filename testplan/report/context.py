@@ -333,6 +333,49 @@ def _deviation_lines(data: ReportData) -> list[str]:
     return out
 
 
+# SI typography for units written the ASCII way in records and plan texts.
+SI_UNITS = (
+    (r"\bdegC\b", "°C"),
+    (r"\bN\*mm\b", "N·mm"),
+    (r"\bN\*m\b", "N·m"),
+    (r"\bGohm\b", "GΩ"),
+    (r"\bMohm\b", "MΩ"),
+    (r"\bkohm\b", "kΩ"),
+    (r"\bohm\b", "Ω"),
+    (r"\bm\^3\b", "m³"),
+    (r"\bcm\^2\b", "cm²"),
+    (r"\bm\^2\b", "m²"),
+)
+# Fields that hold markup or data, never prose.
+NOT_TEXT = frozenset({"svg", "data_uri", "calendar_svg", "sha256"})
+
+
+def si_text(text: str) -> str:
+    """Units in a text as SI typography writes them: °C, N·mm, MΩ, m³."""
+    import re
+
+    for pattern, unit in SI_UNITS:
+        text = re.sub(pattern, unit, text)
+    return text
+
+
+def _typeset(value: Any) -> Any:
+    """``si_text`` applied to every prose string of a context, in place where it can be."""
+    import dataclasses
+
+    if isinstance(value, str):
+        return si_text(value)
+    if isinstance(value, list):
+        return [_typeset(v) for v in value]
+    if isinstance(value, tuple):
+        return tuple(_typeset(v) for v in value)
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        for f in dataclasses.fields(value):
+            if f.name not in NOT_TEXT:
+                setattr(value, f.name, _typeset(getattr(value, f.name)))
+    return value
+
+
 def _basis(detail: str) -> str:
     """The verdict's detail without the 'value against limit' its own columns show."""
     head, sep, rest = detail.partition("; ")
@@ -445,7 +488,7 @@ def build(
         Row([role, who, titles.get(who.rpartition("(")[2].rstrip(")"), "-"), at])
         for role, who, at, _ in state.signers
     ]
-    return ReportContext(
+    ctx = ReportContext(
         title=camp["title"],
         report_number=f"TR-{camp['reference']}",
         revision=state.revision,
@@ -485,3 +528,5 @@ def build(
         decision_explained=DECISION_EXPLAINED,
         figure_count=figure_no - 1,
     )
+    _typeset(ctx)
+    return ctx

@@ -164,7 +164,7 @@ def text(report: tuple[Path, list[str], PdfReader]) -> str:
         "tank topped up during the run evaporation Mark Osei (MO)",  # n) deviation, who allowed
         "Not yet prepared, reviewed and approved",  # o) authorisation (draft)
         "Results from external providers: none",  # p)
-        "21 degC, 45 %RH, 1012 hPa at the start",  # environmental conditions
+        "21 °C, 45 %RH, 1012 hPa at the start",  # environmental conditions
         "VC-LT-03, Gellimoor Calibration Ltd",  # equipment and certificate
         "valid for the run",  # calibration status
         "4 mm (k = 2)",  # uncertainty
@@ -223,6 +223,15 @@ def test_page_one_states_conformity_per_claim_and_what_was_not_done(report) -> N
     assert "water-8@ip-verification-1: invalid, tank level dipped at hour 10" in rest
     # Its only run so far was invalid; the repeat is still to be done.
     assert "QC-2027-014-S01 ip-verification not started" in rest
+
+
+def test_units_are_printed_in_si_typography(report) -> None:  # type: ignore[no-untyped-def]
+    # source: SI Brochure, 9th edition (BIPM), unit symbols °C, Ω and the half-high dot
+    # for a product of units (from memory)
+    body = text(report)
+    assert "°C" in body
+    for ascii_unit in ("degC", "N*mm", "Mohm", "Gohm", "m^3"):
+        assert ascii_unit not in body, ascii_unit
 
 
 def test_a_draft_carries_a_diagonal_watermark(report) -> None:  # type: ignore[no-untyped-def]
