@@ -17,6 +17,7 @@ from typing import TYPE_CHECKING, Any
 
 from testplan import __version__
 from testplan.domain import judge as J
+from testplan.report.typography import si_text
 
 if TYPE_CHECKING:  # pragma: no cover
     from testplan.store.reporting import ReportData, RunRecordData
@@ -333,30 +334,8 @@ def _deviation_lines(data: ReportData) -> list[str]:
     return out
 
 
-# SI typography for units written the ASCII way in records and plan texts.
-SI_UNITS = (
-    (r"\bdegC\b", "°C"),
-    (r"\bN\*mm\b", "N·mm"),
-    (r"\bN\*m\b", "N·m"),
-    (r"\bGohm\b", "GΩ"),
-    (r"\bMohm\b", "MΩ"),
-    (r"\bkohm\b", "kΩ"),
-    (r"\bohm\b", "Ω"),
-    (r"\bm\^3\b", "m³"),
-    (r"\bcm\^2\b", "cm²"),
-    (r"\bm\^2\b", "m²"),
-)
 # Fields that hold markup or data, never prose.
 NOT_TEXT = frozenset({"svg", "data_uri", "calendar_svg", "sha256"})
-
-
-def si_text(text: str) -> str:
-    """Units in a text as SI typography writes them: °C, N·mm, MΩ, m³."""
-    import re
-
-    for pattern, unit in SI_UNITS:
-        text = re.sub(pattern, unit, text)
-    return text
 
 
 def _typeset(value: Any) -> Any:
