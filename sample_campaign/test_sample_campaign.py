@@ -78,7 +78,10 @@ def test_demo_bench_work_records_its_runs_judges_them_and_checks_out(tmp_path: P
     assert "IP6X not evaluated dust-6@ip-verification-1" in first
     assert "salt mist, IEC 60068-2-52 not met" in first  # S04's ingress at the retest
     assert "quality manager" in first  # the approver's job title beside the signature
-    assert "N·mm" in " ".join(p.extract_text() for p in PdfReader(tmp_path / "report.pdf").pages)
+    whole = " ".join(p.extract_text() for p in PdfReader(tmp_path / "report.pdf").pages)
+    assert "N·mm" in whole
+    # The leak gauge and insulation tester, whose U the verdicts use, are in the equipment.
+    assert "PG-7781" in whole and "IR-3310" in whole
     summary = " ".join(
         " ".join(p.extract_text().split()) for p in PdfReader(tmp_path / "report.pdf").pages[:3]
     )
