@@ -121,8 +121,9 @@ def test_demo_bench_work_records_its_runs_judges_them_and_checks_out(tmp_path: P
                     "SELECT o.data_json FROM observation o JOIN specimen s ON s.id = o.specimen_id "
                     "WHERE o.kind = 'ingress' AND s.serial = 'QC-2027-014-S04'"
                 )
-            ).scalar()
-            assert '"found":true' in found
+            ).all()
+            # Dry after the jets, wet in both immersions (the invalid one and its repeat).
+            assert sum('"found":true' in row[0] for row in found) == 2
     finally:
         engine.dispose()
     pg = os.environ.get("TESTPLAN_TEST_PG_URL")
