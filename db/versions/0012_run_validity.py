@@ -17,22 +17,18 @@ depends_on = None
 
 
 def upgrade() -> None:
-    with op.batch_alter_table("run", schema=None) as batch_op:
-        batch_op.add_column(sa.Column("invalid_reason", sa.String(), nullable=True))
-        batch_op.add_column(sa.Column("repeat_of_id", sa.Uuid(), nullable=True))
-        batch_op.create_foreign_key("fk_run_repeat_of", "run", ["repeat_of_id"], ["id"])
-    with op.batch_alter_table("deviation", schema=None) as batch_op:
-        batch_op.add_column(sa.Column("criterion_key", sa.String(), nullable=True))
-    with op.batch_alter_table("person", schema=None) as batch_op:
-        batch_op.add_column(sa.Column("title", sa.String(), nullable=True))
+    # Plain ALTER TABLE ADD COLUMN, no new constraint: recreating the run table on SQLite
+    # would fail on a store with records and foreign keys on. The repeat's original is
+    # written only by judging.invalidate_run, in the same unit of work.
+    op.add_column("run", sa.Column("invalid_reason", sa.String(), nullable=True))
+    op.add_column("run", sa.Column("repeat_of_id", sa.Uuid(), nullable=True))
+    op.add_column("deviation", sa.Column("criterion_key", sa.String(), nullable=True))
+    op.add_column("person", sa.Column("title", sa.String(), nullable=True))
 
 
 def downgrade() -> None:
-    with op.batch_alter_table("person", schema=None) as batch_op:
-        batch_op.drop_column("title")
-    with op.batch_alter_table("deviation", schema=None) as batch_op:
-        batch_op.drop_column("criterion_key")
-    with op.batch_alter_table("run", schema=None) as batch_op:
-        batch_op.drop_constraint("fk_run_repeat_of", type_="foreignkey")
-        batch_op.drop_column("repeat_of_id")
-        batch_op.drop_column("invalid_reason")
+    # Plain DROP COLUMN (SQLite 3.35 and later): a table copy would trip the foreign keys.
+    op.drop_column("person", "title")
+    op.drop_column("deviation", "criterion_key")
+    op.drop_column("run", "repeat_of_id")
+    op.drop_column("run", "invalid_reason")

@@ -582,8 +582,8 @@ def check_command(
 
     def unit(session: Session) -> None:
         row = records.find_run(session, run, campaign=campaign)
-        judging.require_disposition(session, row, actor=by)
         records.check_run(session, run=row, by=by, note=note, at=when)
+        judging.require_disposition(session, row, actor=by)  # else the check rolls back
 
     store.write(unit)
     typer.echo(f"{run}: data checked by {by}")

@@ -411,9 +411,7 @@ def _covered(session: Session, run: RunRecord) -> set[str]:
 def require_disposition(session: Session, run: RunRecord, actor: str) -> None:
     """Refuse a data check while a failed condition is neither covered by an accepted
     deviation nor the run invalidated, or while a run with outcome criteria has no
-    observation."""
-    if run.state != "finished":
-        return  # records.check_run names the state
+    observation. Called in the data check's unit of work, so a refusal undoes it."""
     procedure = run_procedure(session, run)
     outcomes = [c["id"] for c in procedure.get("criteria", []) if c["when"] == "outcome"]
     if (

@@ -63,8 +63,15 @@ def _row(obj: Any, *skip: str) -> dict[str, Any]:
     for column in obj.__table__.columns:
         if column.name in skip:
             continue
-        out[column.name] = getattr(obj, column.name)
+        value = getattr(obj, column.name)
+        if value is None and column.name in LATER_COLUMNS:
+            continue  # a record signed before the column existed hashes as it did then
+        out[column.name] = value
     return out
+
+
+# Columns added after records were first signed (migration 0012): left out while empty.
+LATER_COLUMNS = frozenset({"criterion_key", "invalid_reason", "repeat_of_id", "title"})
 
 
 @dataclass(frozen=True)

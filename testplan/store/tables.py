@@ -214,7 +214,7 @@ class RunRecord(SQLModel, table=True):
     check_note: str | None = None
     external_provider: str | None = None
     invalid_reason: str | None = None
-    repeat_of_id: uuid.UUID | None = Field(default=None, foreign_key="run.id")
+    repeat_of_id: uuid.UUID | None = None  # the invalid run this one repeats
 
 
 class RunSpecimen(SQLModel, table=True):
