@@ -412,3 +412,41 @@ def test_every_sample_criterion_has_a_judge() -> None:
 
     unjudged = quantities - set(J.JUDGES) - set(CHANNELS)
     assert unjudged == set()
+
+
+# --- run validity and roll-up (pure) ------------------------------------------------------
+
+
+def test_a_failed_condition_makes_the_run_invalid_unless_a_deviation_covers_it() -> None:
+    from testplan.domain.judge import uncovered_conditions
+
+    # common practice (no source): a test not done as the method asks is repeated, and says
+    # nothing about the product
+    verdicts = [
+        ("water-8.depth", "lowest_point_depth", "fail"),
+        ("water-8.temperature", "water_specimen_difference", "no data"),
+        ("water-8.ingress", "water_ingress", "fail"),  # a product criterion: not a condition
+        ("water-8.duration", "duration", "pass"),
+    ]
+    assert uncovered_conditions(verdicts, set()) == ["water-8.depth", "water-8.temperature"]
+    assert uncovered_conditions(verdicts, {"water-8.depth"}) == ["water-8.temperature"]
+
+
+def test_specimen_roll_up_keeps_failure_invalidity_and_progress_apart() -> None:
+    from testplan.domain.judge import claim_status, product_outcome, specimen_status
+
+    assert product_outcome(["pass", "conditional pass"]) == "passed"
+    assert product_outcome(["pass", "conditional fail"]) == "failed"
+    assert product_outcome(["pass", "no data"]) == "incomplete"
+    assert specimen_status(["passed", "passed"]) == ("passed", "passed")
+    assert specimen_status(["passed", "invalid: repeat", "failed"]) == ("failed", "failed")
+    assert specimen_status(["passed", "invalid: repeat"]) == ("invalid: repeat", "invalid: repeat")
+    assert specimen_status(["passed", "not started", "not started"]) == (
+        "incomplete",
+        "incomplete (1 of 3 runs done)",
+    )
+    assert specimen_status(["not started"]) == ("not started", "not started")
+    assert claim_status(["passed", "passed"]) == "met"
+    assert claim_status(["passed", "failed", "not started"]) == "not met"
+    assert claim_status(["passed", "invalid: repeat"]) == "not evaluated"
+    assert claim_status([]) == "not evaluated"

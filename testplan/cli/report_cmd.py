@@ -59,7 +59,14 @@ def report_command(
     store = open_for_writing(db, quiet=quiet)
     with store.reading() as session:
         data = load_report(session, campaign)
-    ctx = build(data, issue_date=day, paper=sizes[paper.lower()])
+    say(f"loaded {len(data.runs)} run(s); drawing plots", quiet=quiet)
+    ctx = build(
+        data,
+        issue_date=day,
+        paper=sizes[paper.lower()],
+        progress=lambda n, key: say(f"run {n} of {len(data.runs)} drawn: {key}", quiet=quiet),
+    )
+    say("printing the PDF", quiet=quiet)
     pdf = report_pdf(ctx, templates)
     if not ctx.draft:
         sha = hashlib.sha256(pdf).hexdigest()

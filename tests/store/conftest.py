@@ -269,23 +269,18 @@ def record_and_judge(bench: Bench, *, deviation: bool = False) -> Bench:
         "AK",
         "--quiet",
     )
-    if deviation:
-        bench(
-            "record",
-            "deviation",
-            RUN,
-            "--description",
-            "tank topped up for 3 min",
-            "--reason",
-            "slow leak at the tank valve",
-            "--approved-by",
-            "MO",
-            "--key",
-            bench.key("MO"),
-            "--by",
-            "AK",
-            "--quiet",
-        )
+    # The specimen temperature is not logged here, so its condition has no data: an approved
+    # deviation must cover it before the data check.
+    description, reason = (
+        ("tank topped up for 3 min", "slow leak at the tank valve")
+        if deviation
+        else ("specimen temperature not logged", "surface thermometer away for repair")
+    )
+    bench(
+        *("record", "deviation", RUN, "--description", description, "--reason", reason),
+        *("--approved-by", "MO", "--key", bench.key("MO"), "--by", "AK"),
+        *("--covers", "water-8.temperature", "--quiet"),
+    )
     bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
     bench("record", "check", RUN, *bench.signed("MO"), "--at", "2027-01-16T09:00Z", "--quiet")
     bench("judge", "--quiet", ok=False)
