@@ -200,6 +200,45 @@ def decide(
     return outcome, a_lo, a_hi, margin
 
 
+def shown_limits(lo: float | None, hi: float | None, unit: str | None) -> str:
+    """Limits as read: '>= 2053.7 mm', '<= 5 K', '1 to 2 mL/h'; '-' when there are none."""
+    if lo is None and hi is None:
+        return "-"
+    if hi is None:
+        return f">= {fmt(lo, unit)}"
+    if lo is None:
+        return f"<= {fmt(hi, unit)}"
+    return f"{fmt(lo)} to {fmt(hi, unit)}"
+
+
+def acceptance_margin(
+    measured: float | None, accept_min: float | None, accept_max: float | None
+) -> float | None:
+    """Distance of ``measured`` to the nearest acceptance limit, positive inside (None when
+    there is no value or no acceptance limit, as under a guarded rule without U)."""
+    if measured is None or (accept_min is None and accept_max is None):
+        return None
+    margins = []
+    if accept_min is not None:
+        margins.append(measured - accept_min)
+    if accept_max is not None:
+        margins.append(accept_max - measured)
+    return min(margins)
+
+
+def coverage_probability(k: float) -> float:
+    """The coverage probability of an expanded uncertainty U = k u when the measurand is
+    taken as normally distributed: about 0.95 for k = 2."""
+    return math.erf(k / math.sqrt(2.0))
+
+
+def shown_uncertainty(u: float | None, k: float | None, unit: str | None) -> str:
+    """'4 mm (k = 2, about 95 %)': U with its coverage factor and coverage probability."""
+    if not u or k is None:
+        return "-"
+    return f"{fmt(u, unit)} (k = {k:g}, about {100 * coverage_probability(k):.0f} %)"
+
+
 def _utc(t_us: float) -> dt.datetime:
     return dt.datetime.fromtimestamp(t_us / 1e6, dt.UTC)
 
@@ -290,12 +329,7 @@ class Criterion:
 
     def shown_limits(self) -> str:
         """The limits as read: '>= 2053.7 mm', '<= 5 K', '1 to 2 mL/h'."""
-        lo, hi = self.limits()
-        if hi is None:
-            return f">= {fmt(lo, self.unit)}"
-        if lo is None:
-            return f"<= {fmt(hi, self.unit)}"
-        return f"{fmt(lo)} to {fmt(hi, self.unit)}"
+        return shown_limits(*self.limits(), self.unit)
 
     def limits(self) -> tuple[float | None, float | None]:
         if self.comparison == ">=":

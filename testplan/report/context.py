@@ -231,18 +231,17 @@ def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
     ]
     verdicts = []
     for v, serial in r.verdicts:
-        u = f"{J.fmt(v.uncertainty, v.unit)} (k = {v.coverage_k:g})" if v.uncertainty else "-"
-        lim = J.Criterion(v.criterion_key, v.quantity, "", "", v.unit, v.limit_min, v.limit_max)
-        limit = "-" if v.limit_min is None and v.limit_max is None else lim.shown_limits()
+        u = J.shown_uncertainty(v.uncertainty, v.coverage_k, v.unit)
         verdicts.append(
             Row(
                 [
                     v.criterion_key.split(".", 1)[-1],
                     serial or "all",
                     J.fmt(v.measured, v.unit),
-                    limit,
+                    J.shown_limits(v.limit_min, v.limit_max, v.unit),
+                    J.shown_limits(v.accept_min, v.accept_max, v.unit),
                     u,
-                    J.fmt(v.margin),
+                    J.fmt(J.acceptance_margin(v.measured, v.accept_min, v.accept_max), v.unit),
                     OUTCOME_TEXT[v.outcome],
                     _basis(v.detail),
                 ],
@@ -448,10 +447,12 @@ def build(
         for name, d in p["parameters"].items():
             if d.get("provenance") == "declared":
                 customer.append(Row([p["id"], name, _param(d)]))
-    cautions = []
+    # Each caution once, with the procedures it applies to (several share the same line).
+    applies: dict[str, list[str]] = {}
     for p in used:
-        if p["cautions"]:
-            cautions.append((f"{p['id']}: {p['title']}", list(p["cautions"])))
+        for line in p["cautions"]:
+            applies.setdefault(line, []).append(p["id"])
+    cautions = [(line, ids) for line, ids in applies.items()]
     external = [
         f"{r.run.key}: {r.run.external_provider}" for r in data.runs if r.run.external_provider
     ]

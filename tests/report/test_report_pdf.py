@@ -234,7 +234,13 @@ def test_a_draft_carries_a_diagonal_watermark(report) -> None:  # type: ignore[n
 
 def test_results_carry_units_uncertainty_and_verdict(report) -> None:  # type: ignore[no-untyped-def]
     body = text(report)
-    assert "depth all 2000 mm >= 2053.7 mm 4 mm (k = 2) -53.7 fail" in body
+    # Guarded (w = 1 x U): specification limit, acceptance limit moved in by U, U with its
+    # coverage probability, the margin against the acceptance limit.
+    # source: ILAC-G8:09/2019 guarded acceptance (from memory)
+    assert "Specification limit Acceptance limit" in body
+    assert (
+        "depth all 2000 mm >= 2053.7 mm >= 2057.7 mm 4 mm (k = 2, about 95 %) -57.7 mm fail" in body
+    )
     assert "below the limit for about 2 min in the exposure" in body
 
 
@@ -243,6 +249,9 @@ def test_editions_cautions_and_guidance_for_the_reader(report) -> None:  # type:
     assert "Methods and editions" in body and "IEC 60529 Ed. 2.2 (1989 + A1:1999 + A2:2013)" in body
     assert "Safety cautions for the tests performed" in body
     assert "de-energise before handling or opening" in body
+    # A caution that several procedures share is printed once, naming them.
+    assert body.count("Assess the risks before the test") == 1
+    assert body.count("de-energise before handling or opening") == 1
     assert "For anyone reusing the methods described here" in body
     assert (
         "the product standard, local codes and accredited or licensed practice take "
