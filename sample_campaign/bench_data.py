@@ -177,6 +177,26 @@ def photo(path: Path) -> None:
     plt.close(fig)
 
 
+# Jet tests of the other specimens: S02 on the verification leg, S03-S05 after salt mist.
+JETS = {
+    f"ip{n}" if leg == "ip-verification" else f"aged{n}": dt.datetime(
+        2027, 1, d, h, 5, tzinfo=dt.UTC
+    )
+    for leg, n, d, h in (
+        ("ip-verification", 2, 12, 9),
+        ("aged", 1, 21, 9),
+        ("aged", 2, 21, 10),
+        ("aged", 3, 21, 11),
+    )
+}
+JET_SPECIMEN = {
+    "ip2": "QC-2027-014-S02",
+    "aged1": "QC-2027-014-S03",
+    "aged2": "QC-2027-014-S04",
+    "aged3": "QC-2027-014-S05",
+}
+
+
 def main(out: Path) -> None:
     out.mkdir(parents=True, exist_ok=True)
     utc = dt.UTC
@@ -186,6 +206,11 @@ def main(out: Path) -> None:
     salt_mist(out / "cabinet.csv", out / "fog.csv", dt.datetime(2027, 1, 18, 8, 0, tzinfo=utc), 3)
     immersion(out / "tank-aged1.csv", dt.datetime(2027, 1, 21, 14, 10), 72, 30.0)
     immersion(out / "tank-aged2.csv", dt.datetime(2027, 1, 25, 8, 10), 72, None)
+    # The repeat of the invalid water-8@aged-1 (its tank was drawn down at hour 30).
+    immersion(out / "tank-aged1-repeat.csv", dt.datetime(2027, 1, 28, 9, 0), 72, None)
+    for name, at in JETS.items():
+        jet(out / f"jet-{name}.csv", at)
+        (out / f"after-jets-{name}.toml").write_text(sheet_pass("jets", [JET_SPECIMEN[name]]))
     (out / "after-ip1.toml").write_text(
         sheet_pass("72 h immersion", ["QC-2027-014-S01", "QC-2027-014-S02"])
     )

@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # The demo's bench work for the invented Quorrel Q-Brook 7 flood-gauge node: people,
-# equipment with calibrations, and six runs recorded from invented logger files and
-# observation sheets (bench_data.py). One run, water-8@aged-1, is made to fail.
+# equipment with calibrations, and the runs recorded from invented logger files and
+# observation sheets (bench_data.py). One run, water-8@aged-1, is made invalid (its tank
+# level dipped) and repeated; S04 leaks at its cable gland.
 #   sample_campaign/record_demo.sh OUT_DIR     (testplan and python on PATH)
 set -euo pipefail
 out=${1:-demo-out}
@@ -22,14 +23,14 @@ rm -rf "$keys" && mkdir -p "$keys"
 for who in DK JT MO RP LV; do
     testplan keys new $who --out "$keys/$who.pem"
 done
-testplan people add DK --name "Dana Kerrow" --role manager $q
+testplan people add DK --name "Dana Kerrow" --role manager --title "laboratory manager" $q
 mgr=(--by DK --key "$keys/DK.pem")
 testplan keys register DK --public "$keys/DK.pem.pub" "${mgr[@]}" $q
 testplan people add AK --name "Anna Kowal" --role operator "${mgr[@]}" $q
 testplan people add JT --name "Jo Tran" --role operator --role checker "${mgr[@]}" $q
-testplan people add MO --name "Mark Osei" --role checker --role approver "${mgr[@]}" $q
-testplan people add RP --name "Rita Pereira" --role preparer "${mgr[@]}" $q
-testplan people add LV --name "Lars Vik" --role reviewer "${mgr[@]}" $q
+testplan people add MO --name "Mark Osei" --role checker --role approver --title "quality manager" "${mgr[@]}" $q
+testplan people add RP --name "Rita Pereira" --role preparer --title "test engineer" "${mgr[@]}" $q
+testplan people add LV --name "Lars Vik" --role reviewer --title "technical reviewer" "${mgr[@]}" $q
 for who in JT MO RP LV; do
     testplan keys register $who --public "$keys/$who.pem.pub" "${mgr[@]}" $q
 done
@@ -111,10 +112,26 @@ for n in 03 04 05; do
     testplan record observe $run --specimen ${S}$n --checkpoint "after 3 cycles and recovery" --rating $rating \
         --function pass --by AK $q
 done
+testplan record deviation $run --description "cabinet temperature 34.4 to 35.7 degC in the spray phase, above 35 degC for 40 min" \
+    --reason "cabinet heater controller overshoot after the door was opened" --approved-by MO --key "$keys/MO.pem" --by AK $q
 testplan record finish $run --by AK --at 2027-01-21T08:00Z $q
 testplan record check $run "${jt[@]}" --at 2027-01-21T15:00Z $q
 
-# 72 h immersion of S03 and S04 after ageing: the tank is topped up at hour 30.
+# Jet tests of S02 (verification leg) and of S03-S05 after salt mist.
+jet_run() {  # run, specimen file suffix, start, finish, operator, checker
+    testplan record start "$1" --operator "$5" --equipment FM-02 "${amb[@]}" --state-ok --at "$3" $q
+    testplan record import "$1" "$bench/jet-$2.csv" --map "Q1[L/min]=flow@FM-02" --map "P1[bar]=nozzle_pressure@FM-02" --by "$5" $q
+    testplan record observe "$1" --sheet "$bench/after-jets-$2.toml" --by "$5" $q
+    testplan record finish "$1" --by "$5" --at "$4" $q
+    testplan record check "$1" --by "$6" --key "$keys/$6.pem" --at "$4" $q
+}
+jet_run water-6@ip-verification-2 ip2 2027-01-12T09:05Z 2027-01-12T09:09Z AK MO
+jet_run water-6@aged-1 aged1 2027-01-21T09:05Z 2027-01-21T09:09Z AK JT
+jet_run water-6@aged-2 aged2 2027-01-21T10:05Z 2027-01-21T10:09Z AK JT
+jet_run water-6@aged-3 aged3 2027-01-21T11:05Z 2027-01-21T11:09Z AK JT
+
+# 72 h immersion of S03 and S04 after ageing: the tank is topped up at hour 30 and its
+# level drawn down below the declared depth for 4 min, so the run is invalid and repeated.
 run=water-8@aged-1
 testplan record start $run --operator AK --equipment LT-03 --equipment TT-07 "${amb[@]}" --state-ok --at 2027-01-21T14:10Z $q
 testplan record import $run "$bench/tank-aged1.csv" --tz Europe/London --time-column timestamp \
@@ -124,7 +141,7 @@ testplan record observe $run --sheet "$bench/after-aged1.toml" --by AK $q
 testplan record deviation $run --description "tank topped up at hour 30 while the specimens stayed immersed" \
     --reason "evaporation lowered the level" --approved-by MO --key "$keys/MO.pem" --by AK $q
 testplan record finish $run --by AK --at 2027-01-24T14:20Z $q
-testplan record check $run "${jt[@]}" --at 2027-01-25T09:00Z $q
+testplan record invalidate $run --reason "tank level drawn down below the declared depth for 4 min at hour 30 while topping up" --by MO $q
 
 # 72 h immersion of S05 after ageing.
 run=water-8@aged-2
@@ -135,6 +152,16 @@ testplan record import $run "$bench/tank-aged2.csv" --tz Europe/London --time-co
 testplan record observe $run --sheet "$bench/after-aged2.toml" --by JT $q
 testplan record finish $run --by JT --at 2027-01-28T08:30Z $q
 testplan record check $run "${mo[@]}" --at 2027-01-28T11:00Z $q
+
+# The repeat of water-8@aged-1, planned when it was invalidated: S04 leaks again.
+run=water-8@aged-1-repeat2
+testplan record start $run --operator AK --equipment LT-03 --equipment TT-07 "${amb[@]}" --state-ok --at 2027-01-28T09:00Z $q
+testplan record import $run "$bench/tank-aged1-repeat.csv" --tz Europe/London --time-column timestamp \
+    --map "depth_cm[cm]=lowest_point_depth@LT-03" --map "water_C[degC]=water_temperature@LT-03" \
+    --map "s1_C[degC]=specimen_temperature@TT-07#${S}03" --map "s2_C[degC]=specimen_temperature@TT-07#${S}04" --by AK $q
+testplan record observe $run --sheet "$bench/after-aged1.toml" --by AK $q
+testplan record finish $run --by AK --at 2027-01-31T09:10Z $q
+testplan record check $run "${jt[@]}" --at 2027-01-31T11:00Z $q
 
 testplan store check
 testplan record list

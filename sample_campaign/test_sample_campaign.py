@@ -10,6 +10,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 import sqlalchemy as sa
+from pypdf import PdfReader
 from typer.testing import CliRunner
 
 from testplan.cli import app
@@ -38,7 +39,7 @@ def test_demo_plan_reads_in_100_columns() -> None:
 
 
 @pytest.mark.slow
-def test_demo_bench_work_records_six_runs_judges_them_and_checks_out(tmp_path: Path) -> None:
+def test_demo_bench_work_records_its_runs_judges_them_and_checks_out(tmp_path: Path) -> None:
     env = {**os.environ, "PATH": f"{Path(sys.executable).parent}{os.pathsep}{os.environ['PATH']}"}
     env.pop("TESTPLAN_DB", None)
     script = Path(__file__).with_name("record_demo.sh")
@@ -46,30 +47,57 @@ def test_demo_bench_work_records_six_runs_judges_them_and_checks_out(tmp_path: P
     assert result.returncode == 0, result.stderr[-2000:]
     assert "Traceback" not in result.stderr
     lines = result.stdout.splitlines()
-    assert any(line.startswith("ok: ") and "7 raw files" in line for line in lines)
+    assert any(line.startswith("ok: ") and "12 raw files" in line for line in lines)
     states = dict(ln.split()[::3] for ln in lines if len(ln.split()) == 4 and "@" in ln)
     checked = sorted(run for run, state in states.items() if state == "checked")
     assert checked == [
         "endurance-mode-selector-knob@aged-1",
         "salt-mist@aged-1",
+        "water-6@aged-1",
+        "water-6@aged-2",
+        "water-6@aged-3",
         "water-6@ip-verification-1",
-        "water-8@aged-1",
+        "water-6@ip-verification-2",
+        "water-8@aged-1-repeat2",
         "water-8@aged-2",
         "water-8@ip-verification-1",
     ]
-    # Judged from the data: the made-to-fail run fails and says why.
-    assert "water-8@aged-1: FAIL" in lines
+    # The tank dip made water-8@aged-1 invalid (not a product failure); its repeat judges
+    # the product: S04 leaks at the gland, S03 does not.
+    assert states["water-8@aged-1"] == "invalid"
+    assert "water-8@aged-1-repeat2: FAIL" in lines
     assert "water-8@aged-2: PASS" in lines
-    assert any(
-        ln.startswith("  FAIL   water-8.depth: 19") and "below the limit" in ln for ln in lines
+    assert any(ln.startswith("  FAIL   water-8.ingress QC-2027-014-S04: found") for ln in lines)
+    assert not any(ln.startswith("  FAIL   water-8.ingress QC-2027-014-S03") for ln in lines)
+    assert "campaign: failed" in lines
+    # Page 1 of the issued report: a claim met, one not met, one not evaluated, the invalid
+    # run with its repeat, and the deviation, each as the records say.
+    first = " ".join(PdfReader(tmp_path / "report.pdf").pages[0].extract_text().split())
+    assert "IPX6 met water-6@aged-1, water-6@aged-2, water-6@aged-3" in first
+    assert "IPX8 at 2 m for 72 h not met water-8@aged-1-repeat2, water-8@aged-2" in first
+    assert "IP6X not evaluated dust-6@ip-verification-1" in first
+    assert "salt mist, IEC 60068-2-52 not met" in first  # S04's ingress at the retest
+    assert "quality manager" in first  # the approver's job title beside the signature
+    whole = " ".join(p.extract_text() for p in PdfReader(tmp_path / "report.pdf").pages)
+    assert "N·mm" in whole
+    # The leak gauge and insulation tester, whose U the verdicts use, are in the equipment.
+    assert "PG-7781" in whole and "IR-3310" in whole
+    summary = " ".join(
+        " ".join(p.extract_text().split()) for p in PdfReader(tmp_path / "report.pdf").pages[:3]
     )
-    assert "campaign: fail" in lines
+    assert "water-8@aged-1: invalid, tank level drawn down below the declared depth" in summary
+    assert "invalid, repeated as water-8@aged-1-repeat2" in summary
+    assert "salt-mist@aged-1: cabinet temperature 34.4 to 35.7 °C" in summary
+    # The reliability interpretation counts S04's ingress at the seal retest as a failure.
+    assert any(
+        "with 1 failure(s) (ingress at the seal retest: QC-2027-014-S04)" in ln for ln in lines
+    )
     # Signed off by three people, issued, and the PDF checks out against the store.
     assert lines[-1] == f"verified: {tmp_path / 'report.pdf'}"
     engine = sa.create_engine(f"sqlite:///{tmp_path / 'testplan.db'}")
     try:
         with engine.connect() as conn:
-            assert conn.execute(sa.text("SELECT count(*) FROM raw_file")).scalar() == 7
+            assert conn.execute(sa.text("SELECT count(*) FROM raw_file")).scalar() == 12
             # The made-to-fail run: the lowest point above 2053.7 mm for four minutes.
             (number,) = conn.execute(
                 sa.text(
@@ -93,8 +121,9 @@ def test_demo_bench_work_records_six_runs_judges_them_and_checks_out(tmp_path: P
                     "SELECT o.data_json FROM observation o JOIN specimen s ON s.id = o.specimen_id "
                     "WHERE o.kind = 'ingress' AND s.serial = 'QC-2027-014-S04'"
                 )
-            ).scalar()
-            assert '"found":true' in found
+            ).all()
+            # Dry after the jets, wet in both immersions (the invalid one and its repeat).
+            assert sum('"found":true' in row[0] for row in found) == 2
     finally:
         engine.dispose()
     pg = os.environ.get("TESTPLAN_TEST_PG_URL")

@@ -412,3 +412,62 @@ def test_every_sample_criterion_has_a_judge() -> None:
 
     unjudged = quantities - set(J.JUDGES) - set(CHANNELS)
     assert unjudged == set()
+
+
+# --- run validity and roll-up (pure) ------------------------------------------------------
+
+
+def test_a_failed_condition_makes_the_run_invalid_unless_a_deviation_covers_it() -> None:
+    from testplan.domain.judge import uncovered_conditions
+
+    # common practice (no source): a test not done as the method asks is repeated, and says
+    # nothing about the product
+    verdicts = [
+        ("water-8.depth", "lowest_point_depth", "fail"),
+        ("water-8.temperature", "water_specimen_difference", "no data"),
+        ("water-8.ingress", "water_ingress", "fail"),  # a product criterion: not a condition
+        ("water-8.duration", "duration", "pass"),
+    ]
+    assert uncovered_conditions(verdicts, set()) == ["water-8.depth", "water-8.temperature"]
+    assert uncovered_conditions(verdicts, {"water-8.depth"}) == ["water-8.temperature"]
+
+
+def test_specimen_roll_up_keeps_failure_invalidity_and_progress_apart() -> None:
+    from testplan.domain.judge import claim_status, product_outcome, specimen_status
+
+    assert product_outcome(["pass", "conditional pass"]) == "passed"
+    assert product_outcome(["pass", "conditional fail"]) == "failed"
+    assert product_outcome(["pass", "no data"]) == "incomplete"
+    assert specimen_status(["passed", "passed"]) == ("passed", "passed")
+    assert specimen_status(["passed", "invalid: repeat", "failed"]) == ("failed", "failed")
+    assert specimen_status(["passed", "invalid: repeat"]) == ("invalid: repeat", "invalid: repeat")
+    assert specimen_status(["passed", "not started", "not started"]) == (
+        "incomplete",
+        "incomplete (1 of 3 runs done)",
+    )
+    assert specimen_status(["not started"]) == ("not started", "not started")
+    assert claim_status(["passed", "passed"]) == "met"
+    assert claim_status(["passed", "failed", "not started"]) == "not met"
+    assert claim_status(["passed", "invalid: repeat"]) == "not evaluated"
+    assert claim_status([]) == "not evaluated"
+
+
+def test_the_margin_is_against_the_acceptance_limit_and_u_shows_its_coverage() -> None:
+    # Guarded: a minimum of 2053.7 mm with U = 4 mm (w = U) accepts from 2057.7 mm.
+    # source: ILAC-G8:09/2019 guarded acceptance, w = r x U (from memory)
+    guarded = J.Rule("guarded", 1.0)
+    outcome, a_lo, a_hi, spec_margin = J.decide(2056.0, 2053.7, None, 4.0, guarded)
+    assert outcome == J.COND_PASS and a_hi is None
+    assert a_lo == pytest.approx(2057.7)
+    assert spec_margin == pytest.approx(2.3)  # inside the specification limit...
+    margin = J.acceptance_margin(2056.0, a_lo, a_hi)
+    assert margin == pytest.approx(-1.7)  # ...but short of the acceptance limit
+    assert J.acceptance_margin(2056.0, None, None) is None
+    assert J.shown_limits(a_lo, a_hi, "mm") == ">= 2057.7 mm"
+    # source: scipy.stats.norm (coverage of +-k standard uncertainties, normal distribution)
+    from scipy.stats import norm
+
+    for k in (1.0, 2.0, 3.0):
+        assert J.coverage_probability(k) == pytest.approx(norm.cdf(k) - norm.cdf(-k))
+    assert J.shown_uncertainty(4.0, 2.0, "mm") == "4 mm (k = 2, about 95 %)"
+    assert J.shown_uncertainty(None, 2.0, "mm") == "-"

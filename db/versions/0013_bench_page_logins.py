@@ -1,7 +1,7 @@
 """bench page logins: argon2id password hashes and failed-login records for back-off
 
 Revision ID: 0013
-Revises: 0009
+Revises: 0012
 Create Date: 2026-12-02
 """
 
@@ -11,7 +11,7 @@ import sqlalchemy as sa
 from alembic import op
 
 revision = "0013"
-down_revision = "0011"
+down_revision = "0012"
 branch_labels = None
 depends_on = None
 

@@ -37,6 +37,9 @@ def add_command(
         str | None, typer.Option("--by", help="Initials of the manager adding them.")
     ] = None,
     key: KeyOption = None,
+    title: Annotated[
+        str | None, typer.Option("--title", help="Job title, printed beside a signature.")
+    ] = None,
     why: Annotated[str | None, typer.Option("--why", help="Reason, for the audit trail.")] = None,
     db: DbOption = None,
     quiet: QuietOption = False,
@@ -53,7 +56,13 @@ def add_command(
 
     def unit(session: Session) -> tuple[Person, list[str]]:
         person = identity.add_person(
-            session, initials=initials, name=name, roles=role or [], by=signer, why=why
+            session,
+            initials=initials,
+            name=name,
+            roles=role or [],
+            by=signer,
+            why=why,
+            title=title,
         )
         return person, sorted(identity.roles_of(session, person))
 

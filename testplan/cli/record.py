@@ -297,6 +297,10 @@ def deviation_command(
     approved_by: Annotated[str, typer.Option("--approved-by", help="Initials of the approver.")],
     by: ByOption,
     key: KeyOption = None,
+    covers: Annotated[
+        str | None,
+        typer.Option("--covers", help="The condition criterion whose failure it accepts."),
+    ] = None,
     campaign: CampaignOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
@@ -320,6 +324,7 @@ def deviation_command(
             reason=reason,
             approver=approver,
             recorded_by=by,
+            covers=covers,
         )
 
     store.write(unit)
@@ -678,6 +683,33 @@ def finish_command(
     typer.echo(f"{run}: finished")
 
 
+@app.command("invalidate")
+@reports_errors
+def invalidate_command(
+    run: RunArg,
+    reason: Annotated[str, typer.Option("--reason", help="Which test condition was not met.")],
+    by: ByOption,
+    campaign: CampaignOption = None,
+    db: DbOption = None,
+    quiet: QuietOption = False,
+) -> None:
+    """Declare a finished run invalid (a test condition failed) and plan its repeat.
+
+    Example: testplan record invalidate water-8@aged-1 --reason "tank drawn down 4 min" --by MO
+    """
+    from testplan.store import judging, records
+
+    store = open_for_writing(db, quiet=quiet)
+    made: list[str] = []
+
+    def unit(session: Session) -> None:
+        row = records.find_run(session, run, campaign=campaign)
+        made.append(judging.invalidate_run(session, run=row, by=by, reason=reason).key)
+
+    store.write(unit)
+    typer.echo(f"{run}: invalid; repeat planned as {made[-1]}")
+
+
 @app.command("check")
 @reports_errors
 def check_command(
@@ -697,7 +729,7 @@ def check_command(
 
     Example: testplan record check water-8@aged-1 --by MO --key mo.pem
     """
-    from testplan.store import records
+    from testplan.store import judging, records
 
     when = parse_at(at)
     checker = load_signer(by, key)
@@ -706,6 +738,7 @@ def check_command(
     def unit(session: Session) -> None:
         row = records.find_run(session, run, campaign=campaign)
         records.check_run(session, run=row, by=checker, note=note, at=when)
+        judging.require_disposition(session, row, actor=by)  # else the check rolls back
 
     store.write(unit)
     typer.echo(f"{run}: data checked by {by}")

@@ -65,7 +65,14 @@ def report_command(
         kept = _issue_terms(session, campaign, templates)
     given = parse_date(issue_date, "--issue-date") if issue_date else None
     day = given or kept or dt.datetime.now(dt.UTC).date()
-    ctx = build(data, issue_date=day, paper=sizes[paper.lower()])
+    say(f"loaded {len(data.runs)} run(s); drawing plots", quiet=quiet)
+    ctx = build(
+        data,
+        issue_date=day,
+        paper=sizes[paper.lower()],
+        progress=lambda n, key: say(f"run {n} of {len(data.runs)} drawn: {key}", quiet=quiet),
+    )
+    say("printing the PDF", quiet=quiet)
     pdf = report_pdf(ctx, templates)
     if not ctx.draft:
         sha = hashlib.sha256(pdf).hexdigest()

@@ -200,6 +200,45 @@ def decide(
     return outcome, a_lo, a_hi, margin
 
 
+def shown_limits(lo: float | None, hi: float | None, unit: str | None) -> str:
+    """Limits as read: '>= 2053.7 mm', '<= 5 K', '1 to 2 mL/h'; '-' when there are none."""
+    if lo is None and hi is None:
+        return "-"
+    if hi is None:
+        return f">= {fmt(lo, unit)}"
+    if lo is None:
+        return f"<= {fmt(hi, unit)}"
+    return f"{fmt(lo)} to {fmt(hi, unit)}"
+
+
+def acceptance_margin(
+    measured: float | None, accept_min: float | None, accept_max: float | None
+) -> float | None:
+    """Distance of ``measured`` to the nearest acceptance limit, positive inside (None when
+    there is no value or no acceptance limit, as under a guarded rule without U)."""
+    if measured is None or (accept_min is None and accept_max is None):
+        return None
+    margins = []
+    if accept_min is not None:
+        margins.append(measured - accept_min)
+    if accept_max is not None:
+        margins.append(accept_max - measured)
+    return min(margins)
+
+
+def coverage_probability(k: float) -> float:
+    """The coverage probability of an expanded uncertainty U = k u when the measurand is
+    taken as normally distributed: about 0.95 for k = 2."""
+    return math.erf(k / math.sqrt(2.0))
+
+
+def shown_uncertainty(u: float | None, k: float | None, unit: str | None) -> str:
+    """'4 mm (k = 2, about 95 %)': U with its coverage factor and coverage probability."""
+    if not u or k is None:
+        return "-"
+    return f"{fmt(u, unit)} (k = {k:g}, about {100 * coverage_probability(k):.0f} %)"
+
+
 def _utc(t_us: float) -> dt.datetime:
     return dt.datetime.fromtimestamp(t_us / 1e6, dt.UTC)
 
@@ -290,12 +329,7 @@ class Criterion:
 
     def shown_limits(self) -> str:
         """The limits as read: '>= 2053.7 mm', '<= 5 K', '1 to 2 mL/h'."""
-        lo, hi = self.limits()
-        if hi is None:
-            return f">= {fmt(lo, self.unit)}"
-        if lo is None:
-            return f"<= {fmt(hi, self.unit)}"
-        return f"{fmt(lo)} to {fmt(hi, self.unit)}"
+        return shown_limits(*self.limits(), self.unit)
 
     def limits(self) -> tuple[float | None, float | None]:
         if self.comparison == ">=":
@@ -1148,3 +1182,98 @@ def judge_run(run: RunData, rule: Rule) -> list[Verdict]:
         judge = JUDGES.get(c.quantity, condition)
         out.extend(judge(c, run, rule))
     return out
+
+
+# --- run validity and roll-up --------------------------------------------------------------
+
+# Criteria on the product itself. Every other criterion is a test condition: when one fails,
+# the test was not done as the method asks, so the run is invalid (to be repeated) for the
+# specimens in it, unless a deviation accepted by an authorised approver covers it.
+PRODUCT_QUANTITIES = frozenset(
+    {
+        "water_ingress",
+        "dust_ingress",
+        "hazardous_part_contact",
+        "probe_entry",
+        "function",
+        "insulation_resistance",
+        "leak_rate",
+        "protection_rating",
+        "failures",
+        "failure_cycle_recorded",
+        "ingress_retest",
+        "seal_ingress_retest",
+        "torque_at_cycle0",
+        "torque_change_from_cycle0",
+    }
+)
+# Roll-up outcomes of a specimen, a leg or a claim, worst first.
+FAILED = "failed"
+INVALID = "invalid: repeat"
+INCOMPLETE = "incomplete"
+NOT_STARTED = "not started"
+PASSED = "passed"
+CONTROL = "control, not tested"
+STATUS_ORDER = (FAILED, INVALID, INCOMPLETE, NOT_STARTED, PASSED, CONTROL)
+# Statement of conformity per claim (ISO/IEC 17025 cl. 7.8.6.2).
+MET = "met"
+NOT_MET = "not met"
+NOT_EVALUATED = "not evaluated"
+
+
+def is_product(quantity: str) -> bool:
+    """Whether a criterion judges the product (True) or a test condition (False)."""
+    return quantity in PRODUCT_QUANTITIES
+
+
+def uncovered_conditions(verdicts: Sequence[tuple[str, str, str]], covered: set[str]) -> list[str]:
+    """Condition criteria (id, quantity, outcome) that failed and no deviation covers."""
+    return sorted(
+        {c for c, q, o in verdicts if not is_product(q) and o in FAILING and c not in covered}
+    )
+
+
+def product_outcome(outcomes: Sequence[str]) -> str:
+    """A specimen's product outcome in one valid run: failed, passed or incomplete."""
+    if any(o in (FAIL, COND_FAIL) for o in outcomes):
+        return FAILED
+    if any(o in (NO_DATA, NOT_RUN) for o in outcomes):
+        return INCOMPLETE
+    return PASSED
+
+
+def specimen_status(run_states: Sequence[str]) -> tuple[str, str]:
+    """A specimen's roll-up from the state of each of its runs, and the words shown.
+
+    Each state is ``passed``, ``failed``, ``incomplete`` (judged, a product criterion has no
+    data), ``invalid: repeat`` (a condition failed, no repeat yet) or ``not started``.
+    A product failure wins; then an invalid run; then ``k of n runs done``.
+    """
+    n = len(run_states)
+    done = sum(1 for s in run_states if s == PASSED)
+    if FAILED in run_states:
+        return FAILED, FAILED
+    if INVALID in run_states:
+        return INVALID, INVALID
+    if n and done == n:
+        return PASSED, PASSED
+    if all(s == NOT_STARTED for s in run_states):
+        return NOT_STARTED, NOT_STARTED
+    return INCOMPLETE, f"incomplete ({done} of {n} runs done)"
+
+
+def worst_status(statuses: Sequence[str]) -> str:
+    """The roll-up of several specimen statuses: the most severe one."""
+    tested = [s for s in statuses if s != CONTROL]
+    if not tested:
+        return NOT_STARTED
+    return min(tested, key=STATUS_ORDER.index)
+
+
+def claim_status(run_states: Sequence[str]) -> str:
+    """Met when every run the claim rests on passed; not met on a product failure."""
+    if FAILED in run_states:
+        return NOT_MET
+    if run_states and all(s == PASSED for s in run_states):
+        return MET
+    return NOT_EVALUATED

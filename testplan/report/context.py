@@ -11,11 +11,13 @@ from __future__ import annotations
 import base64
 import datetime as dt
 import json
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
 
 from testplan import __version__
 from testplan.domain import judge as J
+from testplan.report.typography import si_text
 
 if TYPE_CHECKING:  # pragma: no cover
     from testplan.store.reporting import ReportData, RunRecordData
@@ -123,6 +125,11 @@ class ReportContext:
     reader_guidance: str
     calendar_svg: str | None
     signatures: list[Row]
+    conformity: list[Row] = field(default_factory=list)
+    signed_by: list[Row] = field(default_factory=list)
+    not_performed: list[str] = field(default_factory=list)
+    deviations: list[str] = field(default_factory=list)
+    decision_explained: str = ""
     replaces: str | None = None
     tool_version: str = __version__
     manifest_root: str | None = None
@@ -224,18 +231,17 @@ def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
     ]
     verdicts = []
     for v, serial in r.verdicts:
-        u = f"{J.fmt(v.uncertainty, v.unit)} (k = {v.coverage_k:g})" if v.uncertainty else "-"
-        lim = J.Criterion(v.criterion_key, v.quantity, "", "", v.unit, v.limit_min, v.limit_max)
-        limit = "-" if v.limit_min is None and v.limit_max is None else lim.shown_limits()
+        u = J.shown_uncertainty(v.uncertainty, v.coverage_k, v.unit)
         verdicts.append(
             Row(
                 [
                     v.criterion_key.split(".", 1)[-1],
                     serial or "all",
                     J.fmt(v.measured, v.unit),
-                    limit,
+                    J.shown_limits(v.limit_min, v.limit_max, v.unit),
+                    J.shown_limits(v.accept_min, v.accept_max, v.unit),
                     u,
-                    J.fmt(v.margin),
+                    J.fmt(J.acceptance_margin(v.measured, v.accept_min, v.accept_max), v.unit),
                     OUTCOME_TEXT[v.outcome],
                     _basis(v.detail),
                 ],
@@ -285,6 +291,69 @@ def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
     )
 
 
+DECISION_EXPLAINED = (
+    "How to read the verdicts. A test condition (depth, flow, temperature, duration and the "
+    "like) that is not held makes the run invalid for the specimens in it: the test is "
+    "repeated as a new run, and the product is not judged on it, unless a deviation accepted "
+    "by an authorised approver covers it. A product criterion (ingress, function, insulation, "
+    "leak, corrosion, failures) that is not met fails that specimen only. A claim is met when "
+    "every run it rests on passed, not met when one of its specimens failed, and not "
+    "evaluated otherwise. Under guarded acceptance the acceptance limit lies inside the "
+    "specification limit by w = r x U, U the expanded uncertainty for a coverage probability "
+    "of about 95 % (k = 2 unless stated): inside the acceptance limit is a pass; between the "
+    "acceptance and specification limits a conditional pass (compliance likely but not shown "
+    "with that probability); beyond the specification limit by up to w a conditional fail; "
+    "further a fail."
+)
+
+
+def _conformity(roll: dict[str, Any]) -> list[Row]:
+    """One row per declared claim: claim, statement, the runs it rests on or why not."""
+    return [
+        Row(
+            [c["claim"], c["status"], ", ".join(c["runs"]) or "-", c["reason"] or "-"],
+            outcome=c["status"],
+        )
+        for c in roll.get("claims", [])
+    ]
+
+
+def _deviation_lines(data: ReportData) -> list[str]:
+    """Every deviation of the campaign, one line each, and each invalidated run."""
+    out = []
+    for r in data.runs:
+        for d, who in r.deviations:
+            covers = f"; accepts {d.criterion_key}" if d.criterion_key else ""
+            out.append(
+                f"{r.run.key}: {d.description} (reason: {d.reason}; approved by "
+                f"{who.initials}{covers})"
+            )
+        if r.run.invalid_reason:
+            out.append(f"{r.run.key}: invalid, {r.run.invalid_reason}")
+    return out
+
+
+# Fields that hold markup or data, never prose.
+NOT_TEXT = frozenset({"svg", "data_uri", "calendar_svg", "sha256"})
+
+
+def _typeset(value: Any) -> Any:
+    """``si_text`` applied to every prose string of a context, in place where it can be."""
+    import dataclasses
+
+    if isinstance(value, str):
+        return si_text(value)
+    if isinstance(value, list):
+        return [_typeset(v) for v in value]
+    if isinstance(value, tuple):
+        return tuple(_typeset(v) for v in value)
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        for f in dataclasses.fields(value):
+            if f.name not in NOT_TEXT:
+                setattr(value, f.name, _typeset(getattr(value, f.name)))
+    return value
+
+
 def _basis(detail: str) -> str:
     """The verdict's detail without the 'value against limit' its own columns show."""
     head, sep, rest = detail.partition("; ")
@@ -293,8 +362,15 @@ def _basis(detail: str) -> str:
     return detail
 
 
-def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext:
-    """Shape the loaded campaign into the report's context."""
+def build(
+    data: ReportData,
+    *,
+    issue_date: dt.date,
+    paper: str,
+    progress: Callable[[int, str], None] | None = None,
+) -> ReportContext:
+    """Shape the loaded campaign into the report's context; ``progress(n, run)`` is called
+    as each run's section (with its plots) is done."""
     from testplan.report.chart import calendar_chart
 
     camp, plan = data.plan["campaign"], data.plan
@@ -306,6 +382,8 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
         figure_no += len(section.figures)
         photo_no += len(section.photos)
         runs.append(section)
+        if progress is not None:
+            progress(len(runs), section.key)
     run_procs = {r.run.procedure_key for r in data.runs}
     used = [procs[p] for p in procs if p in run_procs] or [
         p for p in plan["procedures"] if p["status"] == "planned"
@@ -343,9 +421,10 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
         for s in receipt.values()
     ]
     roll = data.rollup
-    legs = [Row([leg, OUTCOME_TEXT[o]], outcome=o) for leg, o in roll["legs"].items()]
+    legs = [Row([leg, OUTCOME_TEXT.get(o, o)], outcome=o) for leg, o in roll["legs"].items()]
+    spec_text = roll.get("specimen_text", {})
     spec_rows = [
-        Row([s, receipt[s].leg if s in receipt else "", OUTCOME_TEXT[o]], outcome=o)
+        Row([s, receipt[s].leg if s in receipt else "", spec_text.get(s, o)], outcome=o)
         for s, o in roll["specimens"].items()
     ]
     run_rows = []
@@ -357,7 +436,7 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
                     r.run.key,
                     ", ".join(r.specimens),
                     f"{_date(r.run.started_at)[:10]} to {_date(r.run.finished_at)[:10]}",
-                    OUTCOME_TEXT[o],
+                    OUTCOME_TEXT.get(o, o),
                 ],
                 outcome=o,
             )
@@ -368,10 +447,12 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
         for name, d in p["parameters"].items():
             if d.get("provenance") == "declared":
                 customer.append(Row([p["id"], name, _param(d)]))
-    cautions = []
+    # Each caution once, with the procedures it applies to (several share the same line).
+    applies: dict[str, list[str]] = {}
     for p in used:
-        if p["cautions"]:
-            cautions.append((f"{p['id']}: {p['title']}", list(p["cautions"])))
+        for line in p["cautions"]:
+            applies.setdefault(line, []).append(p["id"])
+    cautions = [(line, ids) for line, ids in applies.items()]
     external = [
         f"{r.run.key}: {r.run.external_provider}" for r in data.runs if r.run.external_provider
     ]
@@ -382,7 +463,12 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
         calendar = text[text.index("<svg") :]
     state = data.signoff
     signatures = [Row([role, who, at, fp]) for role, who, at, fp in state.signers]
-    return ReportContext(
+    titles = data.extras.get("titles", {})
+    signed_by = [
+        Row([role, who, titles.get(who.rpartition("(")[2].rstrip(")"), "-"), at])
+        for role, who, at, _ in state.signers
+    ]
+    ctx = ReportContext(
         title=camp["title"],
         report_number=f"TR-{camp['reference']}",
         revision=state.revision,
@@ -403,7 +489,7 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
         summary_legs=legs,
         summary_specimens=spec_rows,
         summary_runs=run_rows,
-        campaign_outcome=OUTCOME_TEXT[roll["campaign"]],
+        campaign_outcome=OUTCOME_TEXT.get(roll["campaign"], roll["campaign"]),
         runs=runs,
         standards=[Row([n, e]) for n, e in standards],
         customer_data=customer,
@@ -413,5 +499,14 @@ def build(data: ReportData, *, issue_date: dt.date, paper: str) -> ReportContext
         reader_guidance=READER_GUIDANCE,
         calendar_svg=calendar,
         signatures=signatures,
+        conformity=_conformity(roll),
+        signed_by=signed_by,
+        not_performed=[
+            f"{p['run']} ({', '.join(p['specimens'])})" for p in roll.get("not_performed", [])
+        ],
+        deviations=_deviation_lines(data),
+        decision_explained=DECISION_EXPLAINED,
         figure_count=figure_no - 1,
     )
+    _typeset(ctx)
+    return ctx

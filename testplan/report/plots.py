@@ -18,6 +18,9 @@ if TYPE_CHECKING:  # pragma: no cover
 
 BINS = 600
 WIDTH_IN, HEIGHT_IN = 6.6, 2.3
+LEGEND_IN = 1.55  # room right of the axes for the legend, clear of the data and bands
+# The time axis in the unit that suits the run's length: (up to seconds, unit, seconds each).
+TIME_UNITS = ((600.0, "s", 1.0), (3 * 3600.0, "min", 60.0), (3 * 86400.0, "h", 3600.0))
 LIMIT_STYLE = {"color": "#b22222", "linestyle": "--", "linewidth": 0.9}
 
 
@@ -79,7 +82,7 @@ def _axes(ylabel: str, xlabel: str) -> tuple[Any, Any]:
     fig, ax = plt.subplots(figsize=(WIDTH_IN, HEIGHT_IN))
     fig.subplots_adjust(
         left=0.8 / WIDTH_IN,
-        right=1 - 0.12 / WIDTH_IN,
+        right=1 - LEGEND_IN / WIDTH_IN,
         bottom=0.42 / HEIGHT_IN,
         top=1 - 0.1 / HEIGHT_IN,
     )
@@ -98,8 +101,34 @@ def _limits(ax: Any, c: J.Criterion, label: bool = True) -> None:
             )
 
 
-def _hours(run: J.RunData, t_us: Any) -> Any:
-    return (t_us - run.started_at.timestamp() * 1e6) / 3600e6
+def time_unit(run: J.RunData) -> tuple[str, float]:
+    """The time unit for a run's plots and its length in seconds: s, min, h or d."""
+    length = (run.finished_at - run.started_at).total_seconds()
+    for up_to, unit, seconds in TIME_UNITS:
+        if length <= up_to:
+            return unit, seconds
+    return "d", 86400.0
+
+
+def _since_start(run: J.RunData, t_us: Any) -> Any:
+    return (t_us - run.started_at.timestamp() * 1e6) / (time_unit(run)[1] * 1e6)
+
+
+def _time_label(run: J.RunData) -> str:
+    return f"time from start ({time_unit(run)[0]})"
+
+
+def quantity_label(quantity: str, unit: str | None) -> str:
+    """An axis label: the quantity's name in words, with its unit in SI typography."""
+    from testplan.report.typography import si_text
+
+    words = quantity.replace("_", " ")
+    return si_text(f"{words} ({unit})") if unit else words
+
+
+def _legend(ax: Any) -> None:
+    """The legend outside the data, right of the axes."""
+    ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=6.5, frameon=False)
 
 
 def condition_figure(run: J.RunData, c: J.Criterion) -> Figure | None:
@@ -107,9 +136,9 @@ def condition_figure(run: J.RunData, c: J.Criterion) -> Figure | None:
     found = [J.in_unit(s, c.unit) for s in run.series if s.quantity == c.quantity and len(s.t_us)]
     if not found:
         return None
-    fig, ax = _axes(f"{c.quantity} ({c.unit})" if c.unit else c.quantity, "hours from start")
+    fig, ax = _axes(quantity_label(c.quantity, c.unit), _time_label(run))
     for s in found:
-        x, lo, hi = envelope(_hours(run, s.t_us), s.value)
+        x, lo, hi = envelope(_since_start(run, s.t_us), s.value)
         name = s.specimen or s.quantity
         if c.when == "per_period" and len(x) < 60:
             ax.plot(x, hi, "o", markersize=3, label=name)
@@ -135,7 +164,7 @@ def condition_figure(run: J.RunData, c: J.Criterion) -> Figure | None:
             pad = max((high - low) * 0.25, abs(lo_lim) * 0.01)
             ax.set_ylim(low - pad, high + pad)
             note = "; zoomed on the exposure, lowering and raising run off-scale"
-    ax.legend(loc="best", fontsize=6.5, frameon=False)
+    _legend(ax)
     when = {"whole_run": "over the run", "per_period": "per period", "at_start": "at the start"}
     caption = f"{run.key}: {c.quantity} {when.get(c.when, '')} against {c.shown_limits()}{note}"
     return Figure(caption, _svg(fig))
@@ -150,10 +179,10 @@ def difference_figure(run: J.RunData, c: J.Criterion) -> Figure | None:
     if not water or not specs:
         return None
     w = water[0]
-    fig, ax = _axes("water - specimen (K)", "hours from start")
+    fig, ax = _axes("water minus specimen temperature (K)", _time_label(run))
     for s in specs:
         diff = np.interp(s.t_us, w.t_us, w.value) - s.value
-        x, lo, hi = envelope(_hours(run, s.t_us), diff)
+        x, lo, hi = envelope(_since_start(run, s.t_us), diff)
         ax.plot(x, lo, linewidth=0.7, label=s.specimen or "specimen")
         if lo is not hi:
             ax.plot(x, hi, linewidth=0.5)
@@ -161,7 +190,7 @@ def difference_figure(run: J.RunData, c: J.Criterion) -> Figure | None:
     if hi_lim is not None:
         for v in (hi_lim, -hi_lim):
             ax.axhline(v, **LIMIT_STYLE)
-    ax.legend(loc="best", fontsize=6.5, frameon=False)
+    _legend(ax)
     return Figure(
         f"{run.key}: water minus specimen temperature; judged where immersion starts "
         f"against {c.shown_limits()}",
@@ -179,7 +208,7 @@ def torque_figure(run: J.RunData, c: J.Criterion) -> Figure | None:
         return None
     k = counter[0]
     lo_pct, hi_pct = c.limits()
-    fig, ax = _axes("torque (N*mm)", "cycles")
+    fig, ax = _axes("operating torque (N·mm)", "cycles completed")
     for s in torques:
         cycles = np.interp(s.t_us, k.t_us, k.value)
         x, lo, hi = envelope(cycles, s.value)
@@ -192,7 +221,7 @@ def torque_figure(run: J.RunData, c: J.Criterion) -> Figure | None:
                 ax.axhline(
                     t0 * (1 + pct / 100), color=line.get_color(), linestyle="--", linewidth=0.7
                 )
-    ax.legend(loc="best", fontsize=6.5, frameon=False)
+    _legend(ax)
     return Figure(
         f"{run.key}: operating torque against cycles; dashed: {c.shown_limits()} "
         "around each specimen's cycle-0 torque",

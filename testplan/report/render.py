@@ -6,6 +6,7 @@ from pathlib import Path
 from typing import Any
 
 import jinja2
+import markupsafe
 
 from testplan.errors import TestplanError
 
@@ -57,7 +58,16 @@ def environment(override: str | Path | None = None) -> jinja2.Environment:
         trim_blocks=True,
         lstrip_blocks=True,
     )
+    env.filters["unbroken"] = unbroken
     return env
+
+
+def unbroken(text: str) -> markupsafe.Markup:
+    """A comma-separated list of run ids or serials, each kept whole on one line."""
+    parts = [markupsafe.escape(p) for p in str(text).split(", ")]
+    return markupsafe.Markup(", ").join(
+        markupsafe.Markup('<span class="nb">{}</span>').format(p) for p in parts
+    )
 
 
 def render(name: str, context: dict[str, Any], override: str | Path | None = None) -> str:

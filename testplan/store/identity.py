@@ -413,11 +413,18 @@ def add_person(
     roles: Sequence[str],
     by: Signer | None,
     why: str | None = None,
+    title: str | None = None,
 ) -> Person:
     """Register a person. The first person of an empty store becomes its founding manager
-    (no signer); after that a manager adds people and signs the roles granted with them."""
+    (no signer); after that a manager adds people and signs the roles granted with them.
+    ``title`` is the job title printed beside their signatures."""
     value = clean_initials(initials, key="INITIALS")
     clean = clean_text(name, key="--name", limit=NAME_LIMIT, single_line=True)
+    job = (
+        clean_text(title, key="--title", limit=NAME_LIMIT, single_line=True)
+        if title is not None
+        else None
+    )
     wanted = sorted({_check_role(r) for r in roles})
     if session.exec(select(Person).where(Person.initials == value)).first():
         raise RecordError(f"{value!r} is already in the people register", key="INITIALS")
@@ -430,7 +437,7 @@ def add_person(
                 key="--role",
                 fix="add them with --role manager; another manager grants further roles",
             )
-        person = Person(initials=value, name=clean)
+        person = Person(initials=value, name=clean, title=job)
         session.add(person)
         session.flush()
         at = utc_now()
@@ -444,12 +451,17 @@ def add_person(
             entity="person",
             entity_id=person.id,
             why=FOUNDING,
-            new={"initials": value, "name": clean, "roles": [MANAGER]},
+            new={
+                "initials": value,
+                "name": clean,
+                "roles": [MANAGER],
+                **({"title": job} if job else {}),
+            },
         )
         return person
     manager, key = _manager(session, by, f"people add {value}")
     assert by is not None
-    person = Person(initials=value, name=clean)
+    person = Person(initials=value, name=clean, title=job)
     session.add(person)
     session.flush()
     reason = clean_text(why or f"added by {manager.initials}", key="--why")
@@ -460,7 +472,7 @@ def add_person(
         entity="person",
         entity_id=person.id,
         why=reason,
-        new={"initials": value, "name": clean, "roles": wanted},
+        new={"initials": value, "name": clean, "roles": wanted, **({"title": job} if job else {})},
     )
     for role in wanted:
         _grant(session, person, role, "grant", reason, manager, key, by)

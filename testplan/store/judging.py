@@ -21,7 +21,10 @@ from testplan import __version__
 from testplan.domain import judge as J
 from testplan.errors import RecordError
 from testplan.store import audit
+from testplan.store.identity import clean_text, require_role
 from testplan.store.records import (
+    _open,
+    _state,
     calibrations_in_force,
     find_campaign,
     find_equipment,
@@ -33,6 +36,7 @@ from testplan.store.samples import read_samples
 from testplan.store.tables import (
     Calibration,
     CampaignRecord,
+    Deviation,
     Judgement,
     LoggerChannel,
     Observation,
@@ -45,6 +49,7 @@ from testplan.store.tables import (
 )
 
 JUDGEABLE = ("finished", "checked")
+RETESTS = ("seal_ingress_retest", "ingress_retest")
 
 
 def _plan(session: Session, run: RunRecord) -> dict[str, Any]:
@@ -237,11 +242,21 @@ def interpret_endurance(data: J.RunData, verdicts: list[J.Verdict]) -> dict[str,
         return None
     fails = [o for o in data.observations if o.kind == "failure"]
     failed_at = {o.specimen: float(o.data["cycles"]) for o in fails if o.specimen}
+    # The failure definition counts ingress at the seal retest as a failure (by the end).
+    leaked = sorted(
+        {
+            v.specimen
+            for v in verdicts
+            if v.quantity in RETESTS and v.outcome == J.FAIL and v.specimen
+        }
+        - set(failed_at)
+    )
     cycles = [min(failed_at.get(s, reached), reached) for s in data.specimens]
+    n_fail = len(fails) + len(leaked)
     rated = float(params["rated_cycles"]["value"])
     confidence = float(params["confidence"]["value"])
     shape = float(params["weibull_shape"]["value"])
-    r = demonstrated_reliability(cycles, rated, confidence, shape, len(fails))
+    r = demonstrated_reliability(cycles, rated, confidence, shape, n_fail)
     return {
         "kind": "interpretation",
         "what": "demonstrated reliability",
@@ -250,11 +265,13 @@ def interpret_endurance(data: J.RunData, verdicts: list[J.Verdict]) -> dict[str,
         "rated_cycles": rated,
         "weibull_shape": shape,
         "cycles_per_specimen": cycles,
-        "failures": len(fails),
+        "failures": n_fail,
+        "retest_failures": leaked,
         "text": (
             f"Interpretation, not a measured result: {len(cycles)} specimen(s) reaching "
-            f"{', '.join(f'{c:.0f}' for c in cycles)} cycles with {len(fails)} failure(s) "
-            f"demonstrate a reliability of at least {r:.3f} at {rated:.0f} cycles with "
+            f"{', '.join(f'{c:.0f}' for c in cycles)} cycles with {n_fail} failure(s) "
+            + (f"(ingress at the seal retest: {', '.join(leaked)}) " if leaked else "")
+            + f"demonstrate a reliability of at least {r:.3f} at {rated:.0f} cycles with "
             f"{confidence:.0%} confidence, assuming a Weibull shape of {shape:g} "
             "(customer-supplied)."
         ),
@@ -277,6 +294,8 @@ def evaluate(session: Session, run: RunRecord) -> tuple[J.RunData, J.Rule, list[
         data.started_at,
         data.finished_at,
         __version__,
+        # Later water tests decide a retest criterion: a new one is new evidence.
+        sorted([spec, list(map(list, found))] for spec, found in data.later_ingress.items()),
     ]
     return data, rule, verdicts, _hash(base + sorted({s for v in verdicts for s in v.sources}))
 
@@ -422,65 +441,252 @@ def judge_campaign(
     return camp, [judge_one(session, row, actor) for row in rows]
 
 
+def _covered(session: Session, run: RunRecord) -> set[str]:
+    """Criteria of the run that a deviation accepted by an authorised approver covers."""
+    rows = session.exec(select(Deviation).where(Deviation.run_id == run.id)).all()
+    return {d.criterion_key for d in rows if d.criterion_key}
+
+
+def require_disposition(session: Session, run: RunRecord, actor: str) -> None:
+    """Refuse a data check while a failed condition is neither covered by an accepted
+    deviation nor the run invalidated, or while a run with outcome criteria has no
+    observation. Called in the data check's unit of work, so a refusal undoes it."""
+    procedure = run_procedure(session, run)
+    outcomes = [c["id"] for c in procedure.get("criteria", []) if c["when"] == "outcome"]
+    if (
+        outcomes
+        and not session.exec(select(Observation.id).where(Observation.run_id == run.id)).first()
+    ):
+        raise RecordError(
+            f"run {run.key} has no observation, and its outcome criteria "
+            f"({', '.join(outcomes)}) need one",
+            key="RUN",
+            fix="record them with `testplan record observe` first",
+        )
+    judged = judge_one(session, run, actor)
+    open_ = J.uncovered_conditions(
+        [(v.criterion, v.quantity, v.outcome) for v in judged.verdicts],
+        _covered(session, run),
+    )
+    if open_:
+        raise RecordError(
+            f"run {run.key}: condition {open_[0]} failed and is not dispositioned",
+            key="RUN",
+            fix="record an approved deviation covering it (`testplan record deviation "
+            f"--covers {open_[0]}`) or invalidate the run (`testplan record invalidate`)",
+        )
+
+
+def invalidate_run(session: Session, *, run: RunRecord, by: str, reason: str) -> RunRecord:
+    """Declare a finished run invalid (its test conditions were not met) and plan its repeat
+    as a new run of the same procedure on the same specimens. Returns the repeat."""
+    _open(session, run.campaign_id)
+    _state(run, ("finished",), "invalidate")
+    if not reason.strip():
+        raise RecordError("invalidating a run needs a reason", key="--reason")
+    reason = clean_text(reason, key="--reason")
+    person = require_role(session, by, "approver")
+    assert run.finished_at is not None
+    judge_one(session, run, person.initials)  # the evidence the invalidation rests on
+    n = 2
+    while session.exec(
+        select(RunRecord.id).where(
+            RunRecord.campaign_id == run.campaign_id, RunRecord.key == f"{run.key}-repeat{n}"
+        )
+    ).first():
+        n += 1
+    repeat = RunRecord(
+        campaign_id=run.campaign_id,
+        revision_id=run.revision_id,
+        key=f"{run.key}-repeat{n}",
+        procedure_key=run.procedure_key,
+        leg=run.leg,
+        facility=run.facility,
+        planned_start=run.finished_at,
+        planned_end=run.finished_at + (run.planned_end - run.planned_start),
+        repeat_of_id=run.id,
+    )
+    run.state, run.invalid_reason = "invalid", reason
+    session.add(run)
+    session.add(repeat)
+    session.flush()
+    for spec in run_specimens(session, run):
+        session.add(RunSpecimen(run_id=repeat.id, specimen_id=spec.id))
+    session.flush()
+    audit.append(
+        session,
+        actor=person.initials,
+        action="run.invalidate",
+        entity="run",
+        entity_id=run.id,
+        campaign_id=run.campaign_id,
+        why=reason,
+        old={"state": "finished"},
+        new={"state": "invalid", "repeat": repeat.key},
+    )
+    audit.append(
+        session,
+        actor=person.initials,
+        action="run.plan_repeat",
+        entity="run",
+        entity_id=repeat.id,
+        campaign_id=run.campaign_id,
+        why=f"repeat of invalid run {run.key}",
+        new=audit.values_of(repeat, "key", "procedure_key", "planned_start", "planned_end"),
+    )
+    return repeat
+
+
+@dataclass
+class Claim:
+    """One declared claim and the statement of conformity for it."""
+
+    claim: str
+    status: str
+    runs: list[str]
+    reason: str = ""
+
+
 @dataclass
 class Rollup:
-    """Outcome per specimen, leg and campaign from each run's latest judgement."""
+    """Outcome per run, specimen, leg, claim and campaign from each run's latest
+    judgement; test validity kept apart from product verdicts."""
 
     runs: dict[str, str] = field(default_factory=dict)
     specimens: dict[str, str] = field(default_factory=dict)
+    specimen_text: dict[str, str] = field(default_factory=dict)
     legs: dict[str, str] = field(default_factory=dict)
-    campaign: str = J.PASS
+    claims: list[Claim] = field(default_factory=list)
+    not_performed: list[tuple[str, list[str]]] = field(default_factory=list)
+    campaign: str = J.NOT_STARTED
 
     def to_json(self) -> dict[str, Any]:
         return {
             "runs": self.runs,
             "specimens": self.specimens,
+            "specimen_text": self.specimen_text,
             "legs": self.legs,
+            "claims": [
+                {"claim": c.claim, "status": c.status, "runs": c.runs, "reason": c.reason}
+                for c in self.claims
+            ],
+            "not_performed": [{"run": k, "specimens": s} for k, s in self.not_performed],
             "campaign": self.campaign,
         }
 
 
+def _claims(plan: dict[str, Any]) -> list[tuple[str, list[str]]]:
+    """Each declared claim with the planned procedures it rests on."""
+    target = plan["campaign"]["target"]
+    planned = [p for p in plan["procedures"] if p["status"] == "planned"]
+    out: list[tuple[str, list[str]]] = []
+    for part in str(target["code"]).split("/"):
+        first, second = part[2:3], part[3:4]
+        if first not in ("", "X") and not any(c.startswith(f"IP{first}X") for c, _ in out):
+            ids = [p["id"] for p in planned if p.get("group") in ("dust", "probe")]
+            out.append((f"IP{first}X", ids))
+        if second not in ("", "X"):
+            name = f"IPX{second}"
+            if second in ("8", "9") and target.get("immersion_depth_m"):
+                name += (
+                    f" at {target['immersion_depth_m']:g} m for "
+                    f"{target['immersion_duration_h']:g} h"
+                )
+            out.append((name, [p["id"] for p in planned if p["id"] == f"water-{second}"]))
+    for p in planned:
+        if p.get("family") == "salt_mist":
+            out.append((f"salt mist, {p['standard']['name']}", [p["id"]]))
+        elif p.get("family") == "endurance":
+            out.append((f"endurance: {p['title']}", [p["id"]]))
+    return out
+
+
 def rollup(session: Session, campaign: CampaignRecord) -> Rollup:
-    """Roll the latest verdicts up: a specimen takes the worst verdict that applies to it
-    (its own, and its runs' run-wide ones); runs not yet judged count as ``not run``."""
+    """Roll the latest verdicts up. A failed condition makes a run invalid for the
+    specimens in it (unless an accepted deviation covers it); a failed product criterion
+    fails that specimen only. An invalidated run gives way to its repeat."""
     out = Rollup()
-    per_specimen: dict[uuid.UUID, list[str]] = defaultdict(list)
+    states: dict[uuid.UUID, list[str]] = defaultdict(list)
+    per_proc: dict[str, list[tuple[str, str]]] = defaultdict(list)
     runs = session.exec(
         select(RunRecord)
         .where(RunRecord.campaign_id == campaign.id, RunRecord.state != "withdrawn")
         .order_by(col(RunRecord.planned_start), col(RunRecord.key))
     ).all()
+    repeats = {r.repeat_of_id: r.key for r in runs if r.repeat_of_id}
     for run in runs:
-        members = [s.id for s in run_specimens(session, run)]
+        members = run_specimens(session, run)
+        if run.state == "invalid":
+            again = repeats.get(run.id)
+            out.runs[run.key] = f"invalid, repeated as {again}" if again else J.INVALID
+            continue
         j = session.exec(
             select(Judgement)
             .where(Judgement.run_id == run.id)
             .order_by(col(Judgement.judged_at).desc())
         ).first()
         if j is None:
-            out.runs[run.key] = J.NOT_RUN
-            for sid in members:
-                per_specimen[sid].append(J.NOT_RUN)
-            continue
-        out.runs[run.key] = j.outcome
-        verdicts = session.exec(
-            select(VerdictRecord).where(VerdictRecord.judgement_id == j.id)
-        ).all()
-        for v in verdicts:
-            for sid in [v.specimen_id] if v.specimen_id else members:
-                per_specimen[sid].append(v.outcome)
+            state = J.NOT_STARTED if run.state == "planned" else J.INCOMPLETE
+            if run.state == "planned":
+                out.not_performed.append((run.key, [s.serial for s in members]))
+            run_state = {s.id: state for s in members}
+        else:
+            verdicts = session.exec(
+                select(VerdictRecord).where(VerdictRecord.judgement_id == j.id)
+            ).all()
+            invalid = J.uncovered_conditions(
+                [(v.criterion_key, v.quantity, v.outcome) for v in verdicts],
+                _covered(session, run),
+            )
+            run_state = {}
+            for s in members:
+                if invalid:
+                    run_state[s.id] = J.INVALID
+                    continue
+                run_state[s.id] = J.product_outcome(
+                    [
+                        v.outcome
+                        for v in verdicts
+                        if J.is_product(v.quantity) and v.specimen_id in (None, s.id)
+                    ]
+                )
+        for s in members:
+            states[s.id].append(run_state[s.id])
+            per_proc[run.procedure_key].append((run.key, run_state[s.id]))
+        out.runs[run.key] = J.worst_status(list(run_state.values()))
     specimens = session.exec(
         select(SpecimenRecord)
         .where(SpecimenRecord.campaign_id == campaign.id)
         .order_by(col(SpecimenRecord.serial))
     ).all()
     legs: dict[str, list[str]] = defaultdict(list)
-    for s in specimens:
-        if s.id not in per_specimen:
-            continue  # a control specimen: no tests to judge
-        outcome = J.worst(per_specimen[s.id])
-        out.specimens[s.serial] = outcome
-        legs[s.leg].append(outcome)
-    out.legs = {leg: J.worst(v) for leg, v in legs.items()}
-    out.campaign = J.worst(list(out.legs.values()))
+    for spec in specimens:
+        if spec.id not in states:
+            out.specimens[spec.serial] = J.CONTROL
+            out.specimen_text[spec.serial] = J.CONTROL
+            continue
+        status, text = J.specimen_status(states[spec.id])
+        out.specimens[spec.serial], out.specimen_text[spec.serial] = status, text
+        legs[spec.leg].append(status)
+    out.legs = {leg: J.worst_status(v) for leg, v in legs.items()}
+    out.campaign = J.worst_status(list(out.legs.values()))
+    revision = session.exec(
+        select(PlanRevision)
+        .where(PlanRevision.campaign_id == campaign.id)
+        .order_by(col(PlanRevision.number).desc())
+    ).first()
+    if revision is not None:
+        for name, procs in _claims(json.loads(revision.plan_json)):
+            pairs = [p for proc in procs for p in per_proc.get(proc, [])]
+            status = J.claim_status([st for _, st in pairs])
+            keys = sorted({k for k, _ in pairs})
+            reason = ""
+            if status == J.NOT_EVALUATED:
+                done = len({k for k, st in pairs if st == J.PASSED})
+                reason = (
+                    "no run planned for it"
+                    if not keys
+                    else f"{done} of {len(keys)} runs passed, the others not done or invalid"
+                )
+            out.claims.append(Claim(name, status, keys, reason))
     return out

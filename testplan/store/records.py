@@ -568,6 +568,7 @@ def _state(run: RunRecord, allowed: Sequence[str], doing: str) -> None:
             "finished": "it is finished",
             "checked": "it is finished and its data checked",
             "withdrawn": "it was withdrawn from the plan",
+            "invalid": "it was declared invalid and a repeat planned",
         }[run.state]
         raise RecordError(f"cannot {doing} run {run.key}: {told}", key="RUN")
 
@@ -704,6 +705,8 @@ def deviation_message(row: Deviation, run: RunRecord, approver: str) -> bytes:
             "reason": row.reason,
             "approver": approver,
             "at": row.recorded_at.astimezone(dt.UTC).isoformat(),
+            # Only when set: a deviation approved before --covers existed verifies as signed.
+            **({"covers": row.criterion_key} if row.criterion_key is not None else {}),
         },
     )
 
@@ -716,15 +719,25 @@ def add_deviation(
     reason: str,
     approver: Signer,
     recorded_by: str,
+    covers: str | None = None,
 ) -> Deviation:
     """A departure from the method, allowed only with a reason and the approval of an
-    authorised approver signed with their own key."""
+    authorised approver signed with their own key; ``covers`` names the condition
+    criterion whose failure it accepts (signed with it)."""
     _open(session, run.campaign_id)
     _state(run, ("planned", "running", "finished"), "record a deviation on")
     if not description.strip() or not reason.strip():
         raise RecordError("a deviation needs a description and a reason", key="--reason")
     description = clean_text(description, key="--description")
     reason = clean_text(reason, key="--reason")
+    if covers is not None:
+        known = [c["id"] for c in run_procedure(session, run).get("criteria", [])]
+        if covers not in known:
+            raise RecordError(
+                f"run {run.key} has no criterion {covers!r}",
+                key="--covers",
+                fix=f"one of: {', '.join(known)}",
+            )
     by = find_person(session, recorded_by)
     row = Deviation(
         id=uuid.uuid4(),
@@ -734,6 +747,7 @@ def add_deviation(
         approved_by_id=find_person(session, approver.initials, key=approver.option).id,
         recorded_by_id=by.id,
         recorded_at=utc_now(),
+        criterion_key=covers,
     )
     approved, key, signature = sign_act(
         session,
@@ -760,6 +774,7 @@ def add_deviation(
             "description": description,
             "approved_by": approved.initials,
             "approval_key": key.fingerprint,
+            "covers": covers,
         },
     )
     return row

@@ -66,6 +66,35 @@ def _person(session: Session, pid: Any) -> Person | None:
     return session.get(Person, pid) if pid else None
 
 
+# Observation fields naming the instrument whose reading (and U) a verdict uses.
+INSTRUMENT_FIELDS = {
+    "insulation": ("meter", "insulation_resistance"),
+    "leak_test": ("gauge", "test_pressure"),
+}
+
+
+def _observation_instruments(
+    session: Session, run: RunRecord, known: list[tuple[Equipment, Calibration]]
+) -> list[tuple[Equipment, Calibration]]:
+    """Instruments named in the run's observations (insulation meter, leak gauge) with the
+    calibration in force when they were read, not already among the run's equipment."""
+    from testplan.store.records import calibrations_in_force
+
+    have = {(e.id, c.id) for e, c in known}
+    out: list[tuple[Equipment, Calibration]] = []
+    for o in session.exec(select(Observation).where(Observation.run_id == run.id)).all():
+        tag_field, channel = INSTRUMENT_FIELDS.get(o.kind, (None, ""))
+        tag = json.loads(o.data_json).get(tag_field) if tag_field else None
+        item = session.exec(select(Equipment).where(Equipment.tag == tag)).first() if tag else None
+        if item is None:
+            continue
+        cal = calibrations_in_force(session, item, o.recorded_at.date()).get(channel)
+        if cal is not None and (item.id, cal.id) not in have:
+            have.add((item.id, cal.id))
+            out.append((item, cal))
+    return sorted(out, key=lambda ec: ec[0].tag)
+
+
 def load_report(session: Session, campaign: str | None) -> ReportData:
     """The campaign as of its latest plan revision, with every run that was carried out."""
     from testplan.store.judging import rule_of
@@ -107,6 +136,7 @@ def load_report(session: Session, campaign: str | None) -> ReportData:
                 .order_by(col(Equipment.tag), col(Calibration.channel))
             ).all()
         ]
+        equipment += _observation_instruments(session, run, equipment)
         judgement = session.exec(
             select(Judgement)
             .where(Judgement.run_id == run.id)
@@ -137,7 +167,7 @@ def load_report(session: Session, campaign: str | None) -> ReportData:
                 .order_by(col(Deviation.recorded_at))
             ).all()
         ]
-        finished = run.state in ("finished", "checked")
+        finished = run.state in ("finished", "checked", "invalid")
         runs.append(
             RunRecordData(
                 run=run,
@@ -163,6 +193,7 @@ def load_report(session: Session, campaign: str | None) -> ReportData:
         )
     from testplan.store.signoff import signoff_state
 
+    titles = {p.initials: p.title for p in session.exec(select(Person)).all() if p.title}
     return ReportData(
         signoff=signoff_state(session, camp),
         campaign=camp,
@@ -172,5 +203,5 @@ def load_report(session: Session, campaign: str | None) -> ReportData:
         runs=runs,
         rollup=rollup(session, camp).to_json(),
         rule=rule_of(plan),
-        extras={"generated": dt.datetime.now(dt.UTC)},
+        extras={"generated": dt.datetime.now(dt.UTC), "titles": titles},
     )

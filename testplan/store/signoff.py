@@ -73,7 +73,16 @@ def _h(value: Any) -> str:
 # Columns added after records were first signed: left out of a record's hash while empty,
 # so a report signed before they existed still verifies after the upgrade.
 LATER_COLUMNS = frozenset(
-    {"check_key_id", "check_signature", "approval_key_id", "approval_signature"}
+    {
+        "check_key_id",
+        "check_signature",
+        "approval_key_id",
+        "approval_signature",
+        "criterion_key",
+        "invalid_reason",
+        "repeat_of_id",
+        "title",
+    }
 )
 
 
@@ -83,9 +92,10 @@ def _row(obj: Any, *skip: str) -> dict[str, Any]:
     for column in obj.__table__.columns:
         if column.name in skip:
             continue
-        if column.name in LATER_COLUMNS and getattr(obj, column.name) is None:
-            continue
-        out[column.name] = getattr(obj, column.name)
+        value = getattr(obj, column.name)
+        if value is None and column.name in LATER_COLUMNS:
+            continue  # a record signed before the column existed hashes as it did then
+        out[column.name] = value
     return out
 
 
@@ -303,7 +313,7 @@ def _ready(session: Session, campaign: CampaignRecord) -> None:
     if not runs:
         raise RecordError(f"{campaign.reference} has no run carried out to sign for")
     for run in runs:
-        if run.state != "checked":
+        if run.state not in ("checked", "invalid"):  # an invalid run is judged when declared
             raise RecordError(
                 f"run {run.key} is {run.state}; every run must be finished and its data "
                 "checked before sign-off",

@@ -63,6 +63,7 @@ class Person(SQLModel, table=True):
     initials: str = Field(unique=True, max_length=16)
     name: str
     public_key: str | None = None
+    title: str | None = Field(default=None, max_length=120)  # identity.NAME_LIMIT
     created_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
 
 
@@ -225,6 +226,8 @@ class RunRecord(SQLModel, table=True):
     check_key_id: uuid.UUID | None = None  # the checker's person_key
     check_signature: str | None = Field(default=None, max_length=128)
     external_provider: str | None = None
+    invalid_reason: str | None = Field(default=None, max_length=2000)  # identity.TEXT_LIMIT
+    repeat_of_id: uuid.UUID | None = None  # the invalid run this one repeats
 
 
 class RunSpecimen(SQLModel, table=True):
@@ -254,6 +257,7 @@ class Deviation(SQLModel, table=True):
     recorded_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
     approval_key_id: uuid.UUID | None = None  # the approver's person_key
     approval_signature: str | None = Field(default=None, max_length=128)
+    criterion_key: str | None = Field(default=None, max_length=64)
 
 
 class AuditEntry(SQLModel, table=True):

@@ -50,6 +50,7 @@ FIELD_OF = {
     "--reason": "reason",
     "--why": "why",
     "IMPORT": "why",
+    "--covers": "covers",
     "key": "key",
     "password": "password",
     "photo": "photo",
@@ -292,9 +293,11 @@ class BenchApp:
         )
 
     async def check(self, request: Request, me: BenchSession) -> Response:
-        """The data check: a signed act, so it asks for the checker's own key and passphrase."""
+        """The data check: a signed act, so it asks for the checker's own key and passphrase.
+        Refused, with the criterion named beside the button, while a failed condition is
+        neither covered by an approved deviation nor the run invalidated."""
         from testplan.keys import load_private_bytes
-        from testplan.store import records
+        from testplan.store import judging, records
         from testplan.store.identity import Signer
 
         key = request.path_params["key"]
@@ -312,8 +315,11 @@ class BenchApp:
         def unit(session: Session) -> None:
             run = records.find_run(session, key)
             records.check_run(session, run=run, by=Signer(me.initials, private), note=note)
+            judging.require_disposition(session, run, actor=me.initials)  # else rolled back
 
         _, errors = self.act(request, unit)
+        if "RUN" in errors:  # a failed condition not dispositioned: shown at the check
+            errors["check"] = errors.pop("RUN")
         return await self.run_page(
             request, me, errors, 400 if errors else 200, [] if errors else ["data checked"]
         )
@@ -348,6 +354,7 @@ class BenchApp:
                 reason=_text(form, "reason"),
                 approver=Signer(approver, private, option="approver"),
                 recorded_by=me.initials,
+                covers=_text(form, "covers").strip() or None,
             )
 
         _, errors = self.act(request, unit)

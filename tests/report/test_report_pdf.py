@@ -93,7 +93,8 @@ def report(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[str], P
         "--quiet",
     )
     b("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
-    b("record", "check", RUN, *b.signed("MO"), "--at", "2027-01-16T09:00Z", "--quiet")
+    # The dip is a failed test condition: the run is declared invalid and its repeat planned.
+    b("record", "invalidate", RUN, "--reason", "tank level dipped at hour 10", "--by", "MO")
     start = [a if a != "LT-03" else "TQ-11" for a in START]
     b("record", "start", KNOB, *start, "--at", "2027-01-12T11:00Z", "--quiet")
     k0 = dt.datetime(2027, 1, 12, 11, tzinfo=dt.UTC)
@@ -122,6 +123,9 @@ def report(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[str], P
     pdf.parent.mkdir()
     result = b("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01")
     assert result.stdout.strip() == f"wrote {pdf}"
+    # Progress on stderr while it renders: each run's section with its plots, then printing.
+    assert "run 1 of 2 drawn: " in result.stderr and "run 2 of 2 drawn: " in result.stderr
+    assert result.stderr.index("run 2 of 2") < result.stderr.index("printing the PDF")
     reader = PdfReader(pdf)
     pages = [" ".join(p.extract_text().split()) for p in reader.pages]
     return pdf, pages, reader
@@ -151,7 +155,7 @@ def text(report: tuple[Path, list[str], PdfReader]) -> str:
         "tank topped up during the run evaporation Mark Osei (MO)",  # n) deviation, who allowed
         "Not yet prepared, reviewed and approved",  # o) authorisation (draft)
         "Results from external providers: none",  # p)
-        "21 degC, 45 %RH, 1012 hPa at the start",  # environmental conditions
+        "21 °C, 45 %RH, 1012 hPa at the start",  # environmental conditions
         "VC-LT-03, Gellimoor Calibration Ltd",  # equipment and certificate
         "valid for the run",  # calibration status
         "4 mm (k = 2)",  # uncertainty
@@ -170,22 +174,73 @@ def test_every_page_carries_the_report_number_and_page_x_of_y(report) -> None:  
     pages = report[1]
     assert len(pages) >= 6
     for i, page in enumerate(pages, start=1):
-        assert "TR-QC-2027-014 revision 1 issued 2027-02-01" in page
+        assert "TR-QC-2027-014 revision 1 DRAFT of 2027-02-01" in page
         assert f"Page {i} of {len(pages)}" in page
         assert "DRAFT: not authorised for issue" in page
     assert "End of report TR-QC-2027-014, revision 1" in pages[-1]
 
 
+def summary(report: tuple[Path, list[str], PdfReader]) -> str:
+    """The summary section: from page 1 to where the items tested begin."""
+    return text(report).split("Items tested")[0]
+
+
 def test_summary_comes_first(report) -> None:  # type: ignore[no-untyped-def]
-    first = report[1][0]
+    first = summary(report)
     assert "Summary of results" in first
     assert "Verdict per leg" in first and "Verdict per specimen" in first
-    assert re.search(r"water-8@ip-verification-1 QC-2027-014-S01, QC-2027-014-S02 .* fail", first)
+    assert re.search(
+        r"water-8@ip-verification-1 QC-2027-014-S01, QC-2027-014-S02 .* invalid, repeated as "
+        r"water-8@ip-verification-1-repeat2",
+        first,
+    )
+
+
+def test_page_one_states_conformity_per_claim_and_what_was_not_done(report) -> None:  # type: ignore[no-untyped-def]
+    first = report[1][0]
+    rest = summary(report)
+    # source: ISO/IEC 17025:2017 cl. 7.8.6.2 (from memory): conformity per specification
+    assert "Statement of conformity" in first
+    # IP66/IP68, 2 m for 72 h declared: one claim per numeral; nothing here is yet met.
+    for claim in ("IP6X not evaluated", "IPX6 not evaluated", "IPX8 at 2 m for 72 h not evaluated"):
+        assert claim in first
+    assert "How to read the verdicts." in first and "coverage probability" in first
+    assert "Planned, not performed:" in first
+    assert "water-8@ip-verification-1-repeat2 (QC-2027-014-S01, QC-2027-014-S02)" in rest
+    assert (
+        "water-8@ip-verification-1: tank topped up during the run (reason: evaporation; "
+        "approved by MO)" in rest
+    )
+    assert "water-8@ip-verification-1: invalid, tank level dipped at hour 10" in rest
+    # Its only run so far was invalid; the repeat is still to be done.
+    assert "QC-2027-014-S01 ip-verification not started" in rest
+
+
+def test_units_are_printed_in_si_typography(report) -> None:  # type: ignore[no-untyped-def]
+    # source: SI Brochure, 9th edition (BIPM), unit symbols °C, Ω and the half-high dot
+    # for a product of units (from memory)
+    body = text(report)
+    assert "°C" in body
+    for ascii_unit in ("degC", "N*mm", "Mohm", "Gohm", "m^3"):
+        assert ascii_unit not in body, ascii_unit
+
+
+def test_a_draft_carries_a_diagonal_watermark(report) -> None:  # type: ignore[no-untyped-def]
+    # The watermark is text on every page (weasyprint repeats a fixed element).
+    assert all(
+        re.search(r"\bDRAFT\b", p.replace("DRAFT:", "").replace("DRAFT of", "")) for p in report[1]
+    )
 
 
 def test_results_carry_units_uncertainty_and_verdict(report) -> None:  # type: ignore[no-untyped-def]
     body = text(report)
-    assert "depth all 2000 mm >= 2053.7 mm 4 mm (k = 2) -53.7 fail" in body
+    # Guarded (w = 1 x U): specification limit, acceptance limit moved in by U, U with its
+    # coverage probability, the margin against the acceptance limit.
+    # source: ILAC-G8:09/2019 guarded acceptance (from memory)
+    assert "Specification limit Acceptance limit" in body
+    assert (
+        "depth all 2000 mm >= 2053.7 mm >= 2057.7 mm 4 mm (k = 2, about 95 %) -57.7 mm fail" in body
+    )
     assert "below the limit for about 2 min in the exposure" in body
 
 
@@ -194,6 +249,9 @@ def test_editions_cautions_and_guidance_for_the_reader(report) -> None:  # type:
     assert "Methods and editions" in body and "IEC 60529 Ed. 2.2 (1989 + A1:1999 + A2:2013)" in body
     assert "Safety cautions for the tests performed" in body
     assert "de-energise before handling or opening" in body
+    # A caution that several procedures share is printed once, naming them.
+    assert body.count("Assess the risks before the test") == 1
+    assert body.count("de-energise before handling or opening") == 1
     assert "For anyone reusing the methods described here" in body
     assert (
         "the product standard, local codes and accredited or licensed practice take "

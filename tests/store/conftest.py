@@ -272,23 +272,18 @@ def record_and_judge(
         "AK",
         "--quiet",
     )
-    if deviation:
-        bench(
-            "record",
-            "deviation",
-            RUN,
-            "--description",
-            "tank topped up for 3 min",
-            "--reason",
-            "slow leak at the tank valve",
-            "--approved-by",
-            "MO",
-            "--key",
-            bench.key("MO"),
-            "--by",
-            "AK",
-            "--quiet",
-        )
+    # The specimen temperature is not logged here, so its condition has no data: an approved
+    # deviation must cover it before the data check.
+    description, reason = (
+        ("tank topped up for 3 min", "slow leak at the tank valve")
+        if deviation
+        else ("specimen temperature not logged", "surface thermometer away for repair")
+    )
+    bench(
+        *("record", "deviation", RUN, "--description", description, "--reason", reason),
+        *("--approved-by", "MO", "--key", bench.key("MO"), "--by", "AK"),
+        *("--covers", "water-8.temperature", "--quiet"),
+    )
     bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
     if until_finished:
         return bench

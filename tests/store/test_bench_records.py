@@ -198,12 +198,23 @@ def test_finish_then_check_by_a_second_person(bench: Bench) -> None:
     assert bench.fail("record", "check", RUN, *bench.signed("AK"), "--at", AT) == (
         "error: --by: AK ran this run; the data check needs a second person"
     )
-    bench(
-        "record",
-        "check",
-        *(RUN, *bench.signed("JT"), "--note", "logs complete", "--at", "2027-01-16T09:00Z"),
-        "--quiet",
-    )
+    # Nothing observed and nothing logged: refused until observed, then until each condition
+    # without data is dispositioned (here by approved deviations).
+    checked_at = ("--at", "2027-01-16T09:00Z")
+    line = bench.fail("record", "check", RUN, *bench.signed("JT"), *checked_at)
+    assert "has no observation" in line
+    bench("record", "observe", RUN, "--note", "tank log lost", "--by", "AK", "--quiet")
+    for criterion in ("water-8.depth", "water-8.temperature"):
+        assert f"condition {criterion} failed" in bench.fail(
+            "record", "check", RUN, *bench.signed("JT"), "--at", "2027-01-16T09:00Z"
+        )
+        bench(
+            *("record", "deviation", RUN, "--description", "log lost", "--reason", "logger"),
+            *("--approved-by", "MO", "--key", bench.key("MO"), "--by", "AK"),
+            *("--covers", criterion, "--quiet"),
+        )
+    bench("record", "check", RUN, *bench.signed("JT"), "--note", "logs complete",
+          "--at", "2027-01-16T09:00Z", "--quiet")  # fmt: skip
     assert bench.sql("SELECT state, check_note FROM run WHERE key = :k", k=RUN) == [
         ("checked", "logs complete")
     ]

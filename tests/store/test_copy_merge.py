@@ -43,6 +43,13 @@ def test_two_bench_stores_merge_into_the_lab_store(bench: Bench, tmp_path: Path)
     assert again.stdout.startswith("copied 0 rows (")
     # The merged campaign is checked, judged, signed off and its report verifies.
     for run in (RUN_A, RUN_B):
+        # No flow was logged at either bench: an approved deviation accepts it.
+        bench(
+            *("record", "deviation", run, "--description", "flow meter not logged"),
+            *("--reason", "logger fault", "--approved-by", "MO", "--key", bench.key("MO")),
+            *("--by", "AK"),
+            *("--covers", "water-6.flow", "--quiet"),
+        )
         bench("record", "check", run, *bench.signed("MO"), "--at", "2027-01-20T09:00Z", "--quiet")
     bench("judge", "--quiet", ok=False)
     sign_off(bench, tmp_path)

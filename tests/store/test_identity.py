@@ -233,6 +233,14 @@ def test_a_data_check_is_signed_by_the_checker(bench: Bench) -> None:
     )
     line = bench.fail("record", "check", RUN, "--at", AT, "--by", "MO", "--key", bench.key("JT"))
     assert "is the key of Jo Tran (JT), not of Mark Osei (MO)" in line
+    # Nothing logged: the conditions without data are accepted by signed deviations first.
+    bench("record", "observe", RUN, "--note", "tank log lost", "--by", "AK", "--quiet")
+    for criterion in ("water-8.depth", "water-8.temperature"):
+        bench(
+            *("record", "deviation", RUN, "--description", "log lost", "--reason", "logger"),
+            *("--approved-by", "MO", "--key", bench.key("MO"), "--by", "AK"),
+            *("--covers", criterion, "--quiet"),
+        )
     bench("record", "check", RUN, "--at", AT, *bench.signed("MO"), "--quiet")
     [(signature,)] = bench.sql("SELECT check_signature FROM run WHERE key = :k", k=RUN)
     [(actor,)] = bench.sql("SELECT actor FROM audit WHERE action = 'run.check'")

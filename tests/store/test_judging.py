@@ -138,11 +138,12 @@ def test_json_output_and_roll_up(bench: Bench) -> None:
     assert depth["limits"] == {"min": 2053.697, "max": None}
     assert depth["acceptance"]["min"] == pytest.approx(2057.697)
     roll = data["rollup"]
-    assert roll["runs"][RUN] == "fail"
-    assert roll["runs"]["dust-6@ip-verification-1"] == "not run"
-    assert roll["specimens"]["QC-2027-014-S01"] == "fail"
-    assert roll["legs"] == {"ip-verification": "fail", "aged": "not run"}
-    assert roll["campaign"] == "fail"
+    # The depth dip is a test condition: the run is invalid, not the product a failure.
+    assert roll["runs"][RUN] == "invalid: repeat"
+    assert roll["runs"]["dust-6@ip-verification-1"] == "not started"
+    assert roll["specimens"]["QC-2027-014-S01"] == "invalid: repeat"
+    assert roll["legs"] == {"ip-verification": "invalid: repeat", "aged": "not started"}
+    assert roll["campaign"] == "failed" or roll["campaign"] == "invalid: repeat"
 
 
 def test_only_finished_runs_are_judged(bench: Bench) -> None:
@@ -206,3 +207,84 @@ def test_endurance_reliability_is_an_interpretation(bench: Bench) -> None:
     expected = math.exp(-chi2.ppf(0.90, 2) / (2 * 3 * 2.7**2))
     assert interpretation["reliability"] == pytest.approx(expected, rel=1e-9)
     assert expected == pytest.approx(0.90007, abs=1e-5)
+
+
+# --- run validity apart from product verdicts ---------------------------------------------
+
+
+def deviation(bench: Bench, covers: str) -> tuple[str, ...]:
+    """`record deviation` on RUN, approved (and signed) by MO, covering one criterion."""
+    return (
+        *("record", "deviation", RUN, "--description", "level 2000 mm for 2 min at hour 10"),
+        *("--reason", "topping up", "--approved-by", "MO", "--key", bench.key("MO")),
+        *("--by", "AK", "--covers", covers),
+    )
+
+
+def test_a_failed_condition_blocks_the_data_check_until_dispositioned(bench: Bench) -> None:
+    record(bench, dip=True)
+    assert bench.fail("record", "check", RUN, *bench.signed("MO")) == (
+        f"error: RUN: run {RUN}: condition water-8.depth failed and is not dispositioned "
+        "(record an approved deviation covering it (`testplan record deviation --covers "
+        "water-8.depth`) or invalidate the run (`testplan record invalidate`))"
+    )
+    # A deviation that covers another criterion does not dispose of it.
+    bench(*deviation(bench, "water-8.leak"), "--quiet")
+    assert "water-8.depth failed" in bench.fail("record", "check", RUN, *bench.signed("MO"))
+    assert bench.fail(*deviation(bench, "water-8.nothing")).startswith(
+        f"error: --covers: run {RUN} has no criterion 'water-8.nothing'"
+    )
+    # Approved deviations covering the dip (it also breaks the held duration) and the
+    # specimen temperature not logged (no data is no pass): the check goes through after.
+    for criterion in ("water-8.depth", "water-8.duration", "water-8.temperature"):
+        assert f"{criterion} failed" in bench.fail("record", "check", RUN, *bench.signed("MO"))
+        bench(*deviation(bench, criterion), "--quiet")
+    bench("record", "check", RUN, *bench.signed("MO"), "--at", "2027-01-15T17:00Z", "--quiet")
+    roll = json.loads(bench("judge", "--json", ok=False).stdout)["rollup"]
+    # Valid now; the leak test was never recorded, so the product is not yet judged whole.
+    assert roll["runs"][RUN] == "incomplete"
+    assert roll["specimen_text"]["QC-2027-014-S01"] == "incomplete (0 of 4 runs done)"
+
+
+def test_an_invalid_run_is_repeated_as_a_new_run(bench: Bench) -> None:
+    record(bench, dip=True)
+    # Only an approver may invalidate; AK is an operator.
+    assert "approver" in bench.fail("record", "invalidate", RUN, "--reason", "dip", "--by", "AK")
+    out = bench("record", "invalidate", RUN, "--reason", "tank drawn down", "--by", "MO")
+    assert f"{RUN}: invalid; repeat planned as {RUN}-repeat2" in out.stdout
+    assert bench.fail("record", "check", RUN, *bench.signed("MO")) == (
+        f"error: RUN: cannot check run {RUN}: it was declared invalid and a repeat planned"
+    )
+    roll = json.loads(bench("judge", "--json", ok=False).stdout)["rollup"]
+    assert roll["runs"][RUN] == f"invalid, repeated as {RUN}-repeat2"
+    assert roll["runs"][f"{RUN}-repeat2"] == "not started"
+    assert [RUN + "-repeat2", ["QC-2027-014-S01", "QC-2027-014-S02"]] in [
+        [p["run"], p["specimens"]] for p in roll["not_performed"]
+    ]
+    # The invalidation and the planned repeat are in the audit trail.
+    actions = [r[0] for r in bench.sql("SELECT action FROM audit ORDER BY seq")]
+    assert "run.invalidate" in actions and "run.plan_repeat" in actions
+
+
+def test_a_run_with_outcome_criteria_and_no_observation_cannot_be_checked(bench: Bench) -> None:
+    bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
+    bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T16:40Z", "--quiet")
+    assert bench.fail("record", "check", RUN, *bench.signed("MO")) == (
+        f"error: RUN: run {RUN} has no observation, and its outcome criteria (water-8.ingress, "
+        "water-8.function, water-8.leak, water-8.insulation) need one (record them with "
+        "`testplan record observe` first)"
+    )
+
+
+def test_claims_are_stated_one_by_one(bench: Bench) -> None:
+    record(bench, dip=False)
+    claims = {
+        c["claim"]: c
+        for c in json.loads(bench("judge", "--json", ok=False).stdout)["rollup"]["claims"]
+    }
+    # IP66/IP68 with 2 m 72 h declared: one claim per numeral, then salt mist and endurance.
+    assert list(claims)[:3] == ["IP6X", "IPX6", "IPX8 at 2 m for 72 h"]
+    assert claims["IP6X"]["status"] == "not evaluated"
+    assert claims["IPX8 at 2 m for 72 h"]["status"] == "not evaluated"
+    assert RUN in claims["IPX8 at 2 m for 72 h"]["runs"]
+    assert claims["IPX8 at 2 m for 72 h"]["reason"].startswith("0 of 3 runs passed")

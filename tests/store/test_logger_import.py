@@ -452,6 +452,14 @@ def test_an_import_cannot_be_withdrawn_after_the_data_check(running: Bench) -> N
     out = running("record", "import", RUN, str(path), "--map", LEVEL, "--map", WATER, "--by", "AK")
     import_id = out.stdout.strip().rsplit("import ", 1)[1]
     running("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
+    # Six readings leave conditions failed: signed deviations accept them before the check.
+    running("record", "observe", RUN, "--note", "short trial log", "--by", "AK", "--quiet")
+    for criterion in ("water-8.duration", "water-8.temperature"):
+        running(
+            *("record", "deviation", RUN, "--description", "short log", "--reason", "trial"),
+            *("--approved-by", "MO", "--key", running.key("MO"), "--by", "AK"),
+            *("--covers", criterion, "--quiet"),
+        )
     running("record", "check", RUN, *running.signed("MO"), "--at", "2027-01-16T09:00Z", "--quiet")
     line = running.fail("record", "withdraw", RUN, import_id, "--why", "late", "--by", "AK")
     assert line == (

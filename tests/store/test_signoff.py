@@ -119,8 +119,8 @@ def test_a_direct_edit_is_refused_by_postgresql_or_named_by_verify(
 def test_signatures_made_before_the_sample_block_upgrade_still_verify(judged: Bench) -> None:
     """Samples stored a row each (schema 0008) move into blocks (0009): manifests hash the
     same values in the same order, so the samples of an issued report still verify
-    afterwards. (Going down below 0010 discards the signature of the data check, so the
-    run itself is named as changed.)"""
+    afterwards. (Going down below 0010 discards the signatures of the data check and of the
+    deviation's approval, so the run and the deviation are named as changed.)"""
     from alembic import command
 
     from testplan.store.engine import _alembic_config, make_engine
@@ -149,8 +149,14 @@ def test_signatures_made_before_the_sample_block_upgrade_still_verify(judged: Be
                 )
     finally:
         engine.dispose()
+    # Going down to 0008 also undid 0010, 0012 and 0014 (whose signature contexts are put
+    # back above): the deviation loses its approval's signature and the criterion it
+    # covered, so it is named as changed with the run.
     assert judged.sample_count() == before
-    assert problems(judged, pdf) == [f"run {RUN}: changed"]
+    assert problems(judged, pdf) == [
+        f"deviation on {RUN}: specimen temperature not logged: changed",
+        f"run {RUN}: changed",
+    ]
     assert judged("store", "check").stdout.startswith("ok: ")
 
 

@@ -15,7 +15,7 @@ import pytest
 
 from tests.store.conftest import PASS, Bench
 from tests.web.conftest import DATA, PASSWORDS, RUN, stocked
-from tests.web.twin import INGRESS, differences, record_twin
+from tests.web.twin import COVERED, COVERED_WHY, INGRESS, differences, record_twin
 
 CHROMIUM = "/usr/bin/chromium"
 pytestmark = [
@@ -142,6 +142,18 @@ def test_a_whole_run_in_a_browser_stores_what_the_cli_stores(
         assert page.locator(".note").first.inner_text() == "run finished"
         page.get_by_role("button", name="Log out").click()
         log_in(page, served, "JT")
+        for criterion in COVERED:  # failed conditions, each covered before the data check
+            page.goto(f"{served}/run/{RUN}")
+            page.locator("summary", has_text="Record a deviation").click()
+            page.fill("#description", COVERED_WHY[0])
+            page.fill("#reason", COVERED_WHY[1])
+            page.fill("#covers", criterion)
+            page.fill("#approver", "MO")
+            page.set_input_files("#approver_key", str(tmp_path / "MO.pem"))
+            page.fill("#approver_passphrase", PASS)
+            page.get_by_role("button", name="Record the approved deviation").click()
+            note = page.locator(".note").first.inner_text()
+            assert note == "deviation recorded, approved by MO"
         page.goto(f"{served}/run/{RUN}")
         page.set_input_files("#key_file", str(tmp_path / "JT.pem"))
         page.fill("#passphrase", PASS)

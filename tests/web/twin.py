@@ -10,6 +10,12 @@ from tests.web.conftest import DATA, RUN
 INGRESS = {"where": "behind the cable gland"}
 
 
+# The conditions the six-reading log leaves failed, each covered by an approved deviation
+# before the data check (in the order the check names them).
+COVERED = ("water-8.duration", "water-8.temperature")
+COVERED_WHY = ("short demonstration log", "bench page trial run")
+
+
 def record_twin(twin: Bench) -> None:
     """What the bench page's whole run does, done with the CLI."""
     photo = twin.folder / "gland.png"
@@ -61,6 +67,12 @@ def record_twin(twin: Bench) -> None:
         "--quiet",
     )
     twin("record", "finish", RUN, "--by", "AK", "--quiet")
+    for criterion in COVERED:
+        twin(
+            *("record", "deviation", RUN, "--description", COVERED_WHY[0]),
+            *("--reason", COVERED_WHY[1], "--covers", criterion),
+            *("--approved-by", "MO", "--key", twin.key("MO"), "--by", "JT", "--quiet"),
+        )
     twin("record", "check", RUN, *twin.signed("JT"), "--quiet")
 
 
@@ -80,6 +92,9 @@ SAME = {
     "blocks": "SELECT block, n, sha256 FROM sample_block ORDER BY block",
     "observations": "SELECT o.kind, o.data_json, o.checkpoint, a.sha256, a.name, a.media_type "
     "FROM observation o LEFT JOIN attachment a ON a.id = o.attachment_id ORDER BY o.kind",
+    "deviations": "SELECT d.description, d.reason, d.criterion_key, a.initials, b.initials "
+    "FROM deviation d JOIN person a ON a.id = d.approved_by_id "
+    "JOIN person b ON b.id = d.recorded_by_id ORDER BY d.criterion_key",
     "audit": "SELECT action, actor, entity FROM audit ORDER BY chain, seq",
 }
 SIGNED_ACTOR = re.compile(r"(\S+) key ([0-9a-f]+)")
