@@ -6,6 +6,8 @@ Each case is a finding made on copies of an approved store: a change behind the 
 
 from __future__ import annotations
 
+import datetime as dt
+import uuid
 from pathlib import Path
 
 import pytest
@@ -131,7 +133,25 @@ def test_sign_off_refuses_a_judgement_older_than_the_evidence(
         "AK",
         "--quiet",
     )
+    # The data check judges the run again (its conditions must be dispositioned), so through
+    # testplan the ingress found after judging reaches the judgement before anyone signs.
     judged("record", "check", RUN, *judged.signed("MO"), "--at", "2027-01-16T09:00Z", "--quiet")
+    assert ("fail",) in judged.sql(
+        "SELECT v.outcome FROM verdict v JOIN judgement j ON j.id = v.judgement_id"
+        " JOIN run r ON r.id = j.run_id WHERE r.key = :k AND v.criterion_key LIKE '%ingress%'",
+        k=RUN,
+    )
+    # Evidence added behind testplan's back after the check: sign-off refuses the judgement.
+
+    new_id = uuid.uuid4()
+    judged.raw(
+        "INSERT INTO observation (id, run_id, specimen_id, kind, checkpoint, data_json,"
+        " attachment_id, recorded_by_id, recorded_at) SELECT :id, run_id, specimen_id, kind,"
+        " checkpoint, data_json, attachment_id, recorded_by_id, :at FROM observation"
+        " WHERE kind = 'ingress' LIMIT 1",
+        id=str(new_id) if judged.url.startswith("postgresql") else new_id.hex,
+        at=dt.datetime.now(dt.UTC) + dt.timedelta(days=400),
+    )
     line = judged.fail(*sign(judged, "prepared", "RP"))
     assert line.startswith(f"error: run {RUN} was judged ")
     assert "on evidence that has changed since (inputs of " in line
