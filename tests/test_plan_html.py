@@ -52,3 +52,20 @@ def test_unwritable_output_is_one_line(runner: CliRunner, tmp_path: Path) -> Non
     result = runner.invoke(app, ["plan", str(SAMPLE), "--html", str(tmp_path / "no" / "p.html")])
     assert result.exit_code == 1
     assert result.stderr.startswith(f"error: {tmp_path / 'no' / 'p.html'}: cannot write here")
+
+
+def test_html_plan_shows_from_memory_as_to_verify_and_cites_clauses_cleanly(tmp_path) -> None:  # type: ignore[no-untyped-def]
+    from typer.testing import CliRunner
+
+    from testplan.cli import app
+
+    out = tmp_path / "plan.html"
+    result = CliRunner().invoke(
+        app, ["plan", "sample_campaign/flood-gauge-node.toml", "--html", str(out)]
+    )
+    assert result.exit_code == 0, result.output
+    html = out.read_text()
+    assert "to verify against the current edition" in html
+    assert "<td>from memory" not in html
+    for stray in ("cl. Table", "cl. test method", "cl. cl."):
+        assert stray not in html

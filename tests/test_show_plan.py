@@ -8,7 +8,7 @@ from pathlib import Path
 from typer.testing import CliRunner
 
 from testplan.cli import app
-from testplan.cli.show_plan import cite, shown_provenance
+from testplan.domain.plan import cite, shown_provenance
 
 SAMPLE = str(Path(__file__).resolve().parents[1] / "sample_campaign/flood-gauge-node.toml")
 

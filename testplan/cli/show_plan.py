@@ -12,7 +12,7 @@ from collections.abc import Sequence
 
 import typer
 
-from testplan.domain.plan import Plan, Procedure
+from testplan.domain.plan import Plan, Procedure, cite, shown_provenance
 
 GAP = "  "
 
@@ -56,20 +56,6 @@ def _bullets(title: str, items: Sequence[str], mark: str, width: int) -> list[st
             item, width, initial_indent=f"  {mark} ", subsequent_indent="    "
         ) or [f"  {mark}"]
     return lines
-
-
-FROM_MEMORY_SHOWN = "to verify against the current edition"
-
-
-def cite(clause: str) -> str:
-    """``cl. 14.2.4`` for a clause number; a table, figure or method reference as written."""
-    text = clause.strip().rstrip(".:")
-    return f"cl. {text}" if text[:1].isdigit() else text
-
-
-def shown_provenance(provenance: str) -> str:
-    """How a parameter's provenance reads on the plan (the JSON keeps the stored value)."""
-    return FROM_MEMORY_SHOWN if provenance == "from memory" else provenance
 
 
 def _procedure(proc: Procedure, width: int) -> list[str]:

@@ -226,3 +226,17 @@ class Plan:
             out["schedule"] = self.schedule
         out["precedence_note"] = self.closing_note
         return out
+
+
+FROM_MEMORY_SHOWN = "to verify against the current edition"
+
+
+def cite(clause: str) -> str:
+    """``cl. 14.2.4`` for a clause number; a table, figure or method reference as written."""
+    text = clause.strip().rstrip(".:")
+    return f"cl. {text}" if text[:1].isdigit() else text
+
+
+def shown_provenance(provenance: str) -> str:
+    """How a parameter's provenance reads on the plan (the JSON keeps the stored value)."""
+    return FROM_MEMORY_SHOWN if provenance == "from memory" else provenance

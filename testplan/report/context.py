@@ -17,6 +17,7 @@ from typing import TYPE_CHECKING, Any
 
 from testplan import __version__
 from testplan.domain import judge as J
+from testplan.domain.plan import cite
 from testplan.report.typography import si_text
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -160,7 +161,9 @@ def _param(d: dict[str, Any]) -> str:
 
 def _method(proc: dict[str, Any]) -> str:
     std = proc["standard"]
-    return f"{std['name']}:{std['edition']}" + (f", cl. {proc['clause']}" if proc["clause"] else "")
+    return f"{std['name']}:{std['edition']}" + (
+        f", {cite(proc['clause'])}" if proc["clause"] else ""
+    )
 
 
 def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:

@@ -8,6 +8,7 @@ from typing import Any
 import jinja2
 import markupsafe
 
+from testplan.domain.plan import cite, shown_provenance
 from testplan.errors import TestplanError
 
 
@@ -59,6 +60,8 @@ def environment(override: str | Path | None = None) -> jinja2.Environment:
         lstrip_blocks=True,
     )
     env.filters["unbroken"] = unbroken
+    env.filters["cite"] = cite
+    env.filters["shown_provenance"] = shown_provenance
     return env
 
 
