@@ -48,7 +48,9 @@ from testplan.store.tables import (
     VerdictRecord,
 )
 
-JUDGEABLE = ("finished", "checked")
+# An invalid run is judged again as its evidence changes (a later retest, say): the report
+# prints its verdicts and sign-off refuses a stale judgement, though it counts as invalid.
+JUDGEABLE = ("finished", "checked", "invalid")
 RETESTS = ("seal_ingress_retest", "ingress_retest")
 
 
