@@ -310,7 +310,10 @@ def test_a_bad_logger_file_leaves_the_store_as_it_was(
     if result.exit_code == 0:
         return
     assert result.exit_code == 1, result.stderr
-    assert result.stderr.count("\n") == 1 and result.stderr.startswith(f"error: {path}")
+    # A mangled file that still reads may repeat one an earlier example imported: refused
+    # as the same bytes (one line naming the earlier import) rather than as unreadable.
+    assert result.stderr.count("\n") == 1
+    assert result.stderr.startswith((f"error: {path}", "error: FILE: tank.csv (sha256 "))
     after = [bench.sql(f"SELECT count(*) FROM {t}") for t in ("raw_file", "audit", "sample_block")]
     assert after == before
 

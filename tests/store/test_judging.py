@@ -13,6 +13,8 @@ from .conftest import START, Bench
 
 RUN = "water-8@ip-verification-1"
 
+CHECKED = "2027-01-15T17:00Z"  # the data check, after the run finished
+
 
 def tank_csv(bench: Bench, dip: bool) -> str:
     """Minute readings from 16:05Z: lowered in 3 min, 2100 mm held, raised; water 12 degC."""
@@ -223,21 +225,22 @@ def deviation(bench: Bench, covers: str) -> tuple[str, ...]:
 
 def test_a_failed_condition_blocks_the_data_check_until_dispositioned(bench: Bench) -> None:
     record(bench, dip=True)
-    assert bench.fail("record", "check", RUN, *bench.signed("MO")) == (
+    assert bench.fail("record", "check", RUN, *bench.signed("MO"), "--at", CHECKED) == (
         f"error: RUN: run {RUN}: condition water-8.depth failed and is not dispositioned "
         "(record an approved deviation covering it (`testplan record deviation --covers "
         "water-8.depth`) or invalidate the run (`testplan record invalidate`))"
     )
     # A deviation that covers another criterion does not dispose of it.
     bench(*deviation(bench, "water-8.leak"), "--quiet")
-    assert "water-8.depth failed" in bench.fail("record", "check", RUN, *bench.signed("MO"))
+    check = ("record", "check", RUN, *bench.signed("MO"), "--at", CHECKED)
+    assert "water-8.depth failed" in bench.fail(*check)
     assert bench.fail(*deviation(bench, "water-8.nothing")).startswith(
         f"error: --covers: run {RUN} has no criterion 'water-8.nothing'"
     )
     # Approved deviations covering the dip (it also breaks the held duration) and the
     # specimen temperature not logged (no data is no pass): the check goes through after.
     for criterion in ("water-8.depth", "water-8.duration", "water-8.temperature"):
-        assert f"{criterion} failed" in bench.fail("record", "check", RUN, *bench.signed("MO"))
+        assert f"{criterion} failed" in bench.fail(*check)
         bench(*deviation(bench, criterion), "--quiet")
     bench("record", "check", RUN, *bench.signed("MO"), "--at", "2027-01-15T17:00Z", "--quiet")
     roll = json.loads(bench("judge", "--json", ok=False).stdout)["rollup"]
@@ -252,7 +255,7 @@ def test_an_invalid_run_is_repeated_as_a_new_run(bench: Bench) -> None:
     assert "approver" in bench.fail("record", "invalidate", RUN, "--reason", "dip", "--by", "AK")
     out = bench("record", "invalidate", RUN, "--reason", "tank drawn down", "--by", "MO")
     assert f"{RUN}: invalid; repeat planned as {RUN}-repeat2" in out.stdout
-    assert bench.fail("record", "check", RUN, *bench.signed("MO")) == (
+    assert bench.fail("record", "check", RUN, *bench.signed("MO"), "--at", CHECKED) == (
         f"error: RUN: cannot check run {RUN}: it was declared invalid and a repeat planned"
     )
     roll = json.loads(bench("judge", "--json", ok=False).stdout)["rollup"]
@@ -269,7 +272,7 @@ def test_an_invalid_run_is_repeated_as_a_new_run(bench: Bench) -> None:
 def test_a_run_with_outcome_criteria_and_no_observation_cannot_be_checked(bench: Bench) -> None:
     bench("record", "start", RUN, *START, "--at", "2027-01-12T16:05Z", "--quiet")
     bench("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T16:40Z", "--quiet")
-    assert bench.fail("record", "check", RUN, *bench.signed("MO")) == (
+    assert bench.fail("record", "check", RUN, *bench.signed("MO"), "--at", CHECKED) == (
         f"error: RUN: run {RUN} has no observation, and its outcome criteria (water-8.ingress, "
         "water-8.function, water-8.leak, water-8.insulation) need one (record them with "
         "`testplan record observe` first)"
