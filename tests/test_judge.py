@@ -182,7 +182,9 @@ def test_a_logging_gap_gives_no_data_never_a_pass() -> None:
         "(logging interval 60 s)"
     )
     (none,) = verdicts(run("water-8"), SIMPLE, "lowest_point_depth")
-    assert none.outcome == J.NO_DATA and none.detail == "no lowest_point_depth logged on this run"
+    assert (
+        none.outcome == J.NO_DATA and none.detail == "not logged: no lowest_point_depth on this run"
+    )
 
 
 def test_readings_outside_the_calibrated_range_are_flagged() -> None:

@@ -22,6 +22,7 @@ MARK = {
     "fail": "FAIL",
     "no data": "NODATA",
     "not run": "-",
+    "logged, no band": "NOBAND",
 }
 
 

@@ -43,6 +43,10 @@ CHANNELS: dict[str, Channel] = {
         Channel("cabinet_temperature", "temperature", "degC", "salt-mist cabinet temperature"),
         Channel("humid_temperature", "temperature", "degC", "humidity-storage temperature"),
         Channel("humid_rh", "ratio", "%", "humidity-storage relative humidity"),
+        Channel(
+            "storage_temperature", "temperature", "degC", "standard-atmosphere storage temperature"
+        ),
+        Channel("storage_rh", "ratio", "%", "standard-atmosphere storage relative humidity"),
         Channel("cycle_count", "count", "cycle", "operating cycles completed on the rig"),
         Channel("torque", "torque", "N*mm", "operating torque of the mechanism"),
         Channel("test_pressure", "pressure", "mbar", "absolute pressure in a leak-test circuit"),

@@ -29,14 +29,18 @@ if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
     import numpy.typing as npt
 
+    from testplan.domain.phases import PhaseSpan
+
 PASS = "pass"
 COND_PASS = "conditional pass"
 COND_FAIL = "conditional fail"
 FAIL = "fail"
 NO_DATA = "no data"
 NOT_RUN = "not run"
+# A channel logged on the run for which the plan gives no band: shown, never judged.
+LOGGED_NO_BAND = "logged, no band"
 # Worst first: what a roll-up reports when verdicts differ.
-SEVERITY = (FAIL, COND_FAIL, NO_DATA, NOT_RUN, COND_PASS, PASS)
+SEVERITY = (FAIL, COND_FAIL, NO_DATA, NOT_RUN, COND_PASS, PASS, LOGGED_NO_BAND)
 FAILING = {FAIL, COND_FAIL, NO_DATA}
 
 GAP_FACTOR = 1.5
@@ -312,6 +316,7 @@ class Criterion:
     min: float | None
     max: float | None
     text: str | None = None
+    phase: str | None = None
 
     @classmethod
     def from_json(cls, c: dict[str, Any]) -> Criterion:
@@ -325,6 +330,7 @@ class Criterion:
             lim.get("min"),
             lim.get("max"),
             c.get("text"),
+            c.get("phase"),
         )
 
     def shown_limits(self) -> str:
@@ -447,7 +453,9 @@ def condition(c: Criterion, run: RunData, rule: Rule) -> list[Verdict]:
 
     found = _series(run, c.quantity)
     if not found:
-        return [_no_data(c, f"no {c.quantity} logged on this run")]
+        return [_no_data(c, f"not logged: no {c.quantity} on this run")]
+    if c.phase is not None:
+        return [in_phases(c, run, rule, in_unit(x, c.unit)) for x in found]
     out = []
     for s in (in_unit(x, c.unit) for x in found):
         lo, hi = c.limits()
@@ -538,6 +546,108 @@ def condition(c: Criterion, run: RunData, rule: Rule) -> list[Verdict]:
             )
         )
     return out
+
+
+def phase_windows(run: RunData, phase: str) -> list[tuple[PhaseSpan, int, int, bool]]:
+    """Each occurrence of ``phase`` in the run's schedule as (span, start us, end us, closed
+    end), placed from the run's recorded start."""
+    from testplan.domain.phases import schedule
+
+    t0 = _us(run.started_at)
+    return [
+        (p, t0 + round(p.start_h * 3600e6), t0 + round(p.end_h * 3600e6), p.last)
+        for p in schedule(run.procedure)
+        if p.name == phase
+    ]
+
+
+def _in_window(s: Series, a: int, b: int, closed: bool) -> npt.NDArray[np.bool_]:
+    """Readings from ``a`` up to ``b`` (``b`` itself only for the schedule's last phase)."""
+    return (s.t_us >= a) & ((s.t_us <= b) if closed else (s.t_us < b))
+
+
+def _phase_gap(s: Series, t: npt.NDArray[np.int64], lo: int, hi: int) -> str | None:
+    """A reading missed inside a phase window, at its start or its end, described."""
+    interval = s.interval_us
+    if interval <= 0:
+        return None
+    limit = GAP_FACTOR * interval
+    if t[0] - lo > limit:
+        return f"first {s.quantity} reading {(t[0] - lo) / 60e6:.3g} min after the phase began"
+    if hi - t[-1] > limit:
+        return f"last {s.quantity} reading {(hi - t[-1]) / 60e6:.3g} min before the phase ended"
+    return _gap(s, float(t[0]), float(t[-1]))
+
+
+def in_phases(c: Criterion, run: RunData, rule: Rule, s: Series) -> Verdict:
+    """A condition band judged in every occurrence of its phase: the worst reading over all
+    of them, shown with the phase it fell in. A phase with no reading, or with a reading
+    missed, makes the criterion ``no data``."""
+    import numpy as np
+
+    assert c.phase is not None
+    lo, hi = c.limits()
+    src = [s.source]
+    windows = phase_windows(run, c.phase)
+    if not windows:
+        return _no_data(
+            c, f"the run's phase schedule has no {c.phase.replace('_', ' ')} phase", s.specimen
+        )
+    best: tuple[float, float, PhaseSpan, int, int] | None = None
+    outside_us = 0.0
+    first_out: int | None = None
+    for span, a, b, closed in windows:
+        keep = _in_window(s, a, b, closed)
+        t, v = s.t_us[keep], s.value[keep]
+        missing = f"no {c.quantity} reading" if not len(t) else _phase_gap(s, t, a, b)
+        if missing:
+            return _no_data(
+                c,
+                f"{missing} in {span.shown()}",
+                s.specimen,
+                sources=src,
+                window_start=_utc(a),
+                window_end=_utc(b),
+            )
+        _, value = _worst(v, lo, hi)
+        margin = min(
+            value - lo if lo is not None else math.inf, hi - value if hi is not None else math.inf
+        )
+        bad = np.zeros(len(v), dtype=bool)
+        if lo is not None:
+            bad |= v < lo
+        if hi is not None:
+            bad |= v > hi
+        if bad.any():
+            outside_us += int(bad.sum()) * s.interval_us
+            if first_out is None:
+                first_out = int(t[bad][0])
+        if best is None or margin < best[0]:
+            best = (margin, value, span, a, b)
+    assert best is not None
+    _, value, span, a, b = best
+    keep_all = np.zeros(len(s.t_us), dtype=bool)
+    for _, wa, wb, closed in windows:
+        keep_all |= _in_window(s, wa, wb, closed)
+    detail = f"worst in {span.shown()} ({len(windows)} such phase(s) judged)"
+    if first_out is not None:
+        detail += (
+            f"; outside the band for about {outside_us / 60e6:.3g} min, first at "
+            f"{_utc(first_out):%Y-%m-%d %H:%M:%SZ}"
+        )
+    return _measured(
+        c,
+        run,
+        rule,
+        value,
+        s.uncertainty,
+        s.coverage_k,
+        specimen=s.specimen,
+        window=(float(a), float(b)),
+        detail=detail,
+        flags=_range_flag(s, s.value[keep_all]),
+        sources=src,
+    )
 
 
 def _worst(v: npt.NDArray[np.float64], lo: float | None, hi: float | None) -> tuple[int, float]:
@@ -1174,14 +1284,69 @@ JUDGES: dict[str, Callable[[Criterion, RunData, Rule], list[Verdict]]] = {
 }
 
 
+# Channels a worked-out criterion reads besides its own quantity: a channel one of these
+# reads has a band (through that criterion) and is not "logged, no band".
+READS: dict[str, tuple[str, ...]] = {
+    "water_specimen_difference": (
+        "water_temperature",
+        "specimen_temperature",
+        "lowest_point_depth",
+        "highest_point_depth",
+    ),
+    "air_drawn": ("air_drawn", "extraction_rate"),
+    "dust_end": ("air_drawn", "extraction_rate", "depression"),
+    "cycles_reached": ("cycle_count",),
+    "torque_at_cycle0": ("torque", "cycle_count"),
+    "torque_change_from_cycle0": ("torque", "cycle_count"),
+}
+
+
+def banded(procedure: dict[str, Any]) -> set[str]:
+    """The channels the procedure's criteria judge or read."""
+    out: set[str] = set()
+    for raw in procedure.get("criteria", []):
+        out.add(raw["quantity"])
+        out.update(READS.get(raw["quantity"], ()))
+    return out
+
+
+def unbanded(run: RunData) -> list[Verdict]:
+    """One ``logged, no band`` verdict per channel (and specimen) logged on the run that no
+    criterion of its plan judges: reported with its range, never silently left out."""
+    have = banded(run.procedure)
+    pid = run.procedure.get("id", "run")
+    out = []
+    for s in run.series:
+        if s.quantity in have or not len(s.t_us):
+            continue
+        keep = _in_run(run, s)
+        v = s.value[keep] if keep.any() else s.value
+        out.append(
+            Verdict(
+                criterion=f"{pid}.logged_{s.quantity}",
+                quantity=s.quantity,
+                outcome=LOGGED_NO_BAND,
+                specimen=s.specimen,
+                unit=s.unit,
+                window_start=_utc(float(s.t_us[0])),
+                window_end=_utc(float(s.t_us[-1])),
+                detail=f"logged, no band in the plan: {len(v)} reading(s) from "
+                f"{fmt(float(v.min()))} to {fmt(float(v.max()), s.unit)}",
+                sources=[s.source],
+            )
+        )
+    return out
+
+
 def judge_run(run: RunData, rule: Rule) -> list[Verdict]:
-    """Every criterion of the run's procedure, judged from its data."""
+    """Every criterion of the run's procedure, judged from its data, then every logged
+    channel the plan gives no band (``logged, no band``)."""
     out: list[Verdict] = []
     for raw in run.procedure.get("criteria", []):
         c = Criterion.from_json(raw)
         judge = JUDGES.get(c.quantity, condition)
         out.extend(judge(c, run, rule))
-    return out
+    return out + unbanded(run)
 
 
 # --- run validity and roll-up --------------------------------------------------------------

@@ -97,6 +97,7 @@ class Criterion:
     max: float | None = None
     text: str | None = None
     clause: str | None = None
+    phase: str | None = None  # a phase of the procedure's schedule (domain/phases.py)
 
     def to_json(self) -> dict[str, Any]:
         limits: dict[str, Any] = {"unit": self.unit}
@@ -115,6 +116,8 @@ class Criterion:
             out["text"] = self.text
         if self.clause is not None:
             out["clause"] = self.clause
+        if self.phase is not None:
+            out["phase"] = self.phase
         return out
 
     def shown(self) -> str:
@@ -140,6 +143,8 @@ class Criterion:
             rule = "none harmful"
         else:
             rule = self.comparison
+        if self.phase is not None:
+            when = f"in every {self.phase.replace('_', ' ')} phase"
         extra = f" ({self.text})" if self.text else ""
         return f"{self.quantity} {rule} {when}{extra}"
 

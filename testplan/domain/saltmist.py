@@ -59,6 +59,36 @@ KB_METHODS: dict[int, KbMethod] = {
 
 FALLOUT = (1.0, 2.0)
 
+# The condition bands of the tabulated Kb phases (methods 1 to 6), judged in each phase of
+# the run's schedule (domain/phases.py): (phase, criterion, channel, min, max, unit).
+PHASE_BANDS_METHODS = (1, 2, 3, 4, 5, 6)
+PHASE_BANDS = (
+    ("salt spray", "spray_temperature", "cabinet_temperature", 15.0, 35.0, "degC"),
+    ("humid storage", "humid_temperature", "humid_temperature", 38.0, 42.0, "degC"),
+    ("humid storage", "humid_rh", "humid_rh", 90.0, 95.0, "%"),
+    ("standard atmosphere", "storage_temperature", "storage_temperature", 21.0, 25.0, "degC"),
+    ("standard atmosphere", "storage_rh", "storage_rh", 45.0, 55.0, "%"),
+)
+
+
+def phase_bands(pid: str, phases: set[str]) -> list[Criterion]:
+    """One condition criterion per band of each phase the cycle has."""
+    return [
+        Criterion(
+            f"{pid}.{key}",
+            channel,
+            "between",
+            "whole_run",
+            unit=unit,
+            min=lo,
+            max=hi,
+            text=f"during every {phase} phase",
+            phase=phase.replace(" ", "_"),
+        )
+        for phase, key, channel, lo, hi, unit in PHASE_BANDS
+        if phase in phases
+    ]
+
 
 @dataclass(frozen=True)
 class Continuous:
@@ -349,31 +379,8 @@ def salt_mist_procedure(sm: SaltMist, functional_check: str | None = None) -> Pr
                 f"{pid}.cycles", "cycles_completed", ">=", "at_end", unit="cycle", min=float(cycles)
             ),
         ]
-        if kb is not None and not sm.phases and method in (1, 2, 3, 4, 5, 6):
-            criteria.append(
-                Criterion(
-                    f"{pid}.humid_temperature",
-                    "humid_temperature",
-                    "between",
-                    "whole_run",
-                    unit="degC",
-                    min=38.0,
-                    max=42.0,
-                    text="during humid storage",
-                )
-            )
-            criteria.append(
-                Criterion(
-                    f"{pid}.humid_rh",
-                    "humid_rh",
-                    "between",
-                    "whole_run",
-                    unit="%",
-                    min=90.0,
-                    max=95.0,
-                    text="during humid storage",
-                )
-            )
+        if kb is not None and not sm.phases and method in PHASE_BANDS_METHODS:
+            criteria += phase_bands(pid, {ph.name for ph in phases})
         title = f"Cyclic salt mist, Kb method {method}"
         standard, edition, clause = "IEC 60068-2-52", "Ed. 3 (2017)", f"test method {method}"
     else:
@@ -451,6 +458,7 @@ def salt_mist_procedure(sm: SaltMist, functional_check: str | None = None) -> Pr
                 unit="degC",
                 min=spec.temperature[0],
                 max=spec.temperature[1],
+                phase="exposure",
             ),
             Criterion(
                 f"{pid}.ph",

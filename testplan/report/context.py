@@ -54,6 +54,7 @@ OUTCOME_TEXT = {
     J.FAIL: "fail",
     J.NO_DATA: "no data",
     J.NOT_RUN: "not run",
+    J.LOGGED_NO_BAND: "logged, no band",
 }
 
 
