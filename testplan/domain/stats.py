@@ -7,6 +7,7 @@ n specimens, beta Weibull shape, L = t / t0 the test-length ratio, r allowed fai
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 from testplan.errors import PlanningError
 
@@ -144,3 +145,117 @@ def demonstrated_reliability(
         return 0.0
     chi = chi2_quantile_even(confidence, 2 * failures + 2)
     return math.exp(-chi / (2.0 * total))
+
+
+STATED = "stated"
+WITHHELD = "withheld"
+
+
+@dataclass(frozen=True)
+class ReliabilityClaim:
+    """A demonstration's statement: ``stated`` when every assumption of the plan held,
+    ``withheld`` with the reason otherwise; ``reliability`` is the bound the cycles reached
+    and the failures counted give (None when nothing honest can be said)."""
+
+    status: str
+    reliability: float | None
+    failures: int
+    reason: str | None
+    text: str
+
+
+def _n(x: float) -> str:
+    return f"{x:,.0f}".replace(",", " ")
+
+
+def reliability_claim(
+    *,
+    cycles: dict[str, float],
+    failures: list[tuple[str, str]],
+    pending: list[str],
+    planned_specimens: int,
+    planned_cycles: float,
+    rated_cycles: float,
+    reliability: float,
+    confidence: float,
+    shape: float,
+    allowed_failures: int,
+) -> ReliabilityClaim:
+    """The zero- (or r-) failure demonstration's claim from what the run showed.
+
+    ``cycles``: cycles each specimen reached (a failed one at its failure); ``failures``:
+    (specimen or rig, how) per failure as the campaign's failure definition counts them;
+    ``pending``: specimens whose failure count is not yet known (a retest not yet done).
+    The claim R >= x at C is stated only when the planned number of specimens reached the
+    planned cycles, the failures do not exceed the plan's allowance, every count is known
+    and the plan's test length follows from its Weibull shape; otherwise it is withheld
+    with the reason, and the bound from the actual cycles and failures is given where the
+    shape still stands.
+    """
+    n_fail = len(failures)
+    failed = {who for who, _ in failures}
+    reasons: list[str] = []
+    if len(cycles) < planned_specimens:
+        reasons.append(f"{len(cycles)} specimen(s) cycled where the plan has {planned_specimens}")
+    short = [
+        f"{s} reached {_n(c)} of the planned {_n(planned_cycles)} cycles"
+        for s, c in sorted(cycles.items())
+        if c < planned_cycles and s not in failed
+    ]
+    reasons += short
+    if n_fail > allowed_failures:
+        listed = ", ".join(f"{who}, {how}" for who, how in failures)
+        reasons.append(
+            f"{n_fail} failure{'s' if n_fail != 1 else ''} ({listed}) where the plan "
+            f"allows {allowed_failures}"
+        )
+    if pending:
+        reasons.append(f"failures not yet all counted: no seal retest of {', '.join(pending)} yet")
+    shape_holds = True
+    try:
+        designed = cycles_to_demonstrate(
+            round(rated_cycles),
+            reliability,
+            confidence,
+            planned_specimens,
+            shape,
+            allowed_failures,
+        )
+    except PlanningError:
+        designed = -1
+    if designed != round(planned_cycles):
+        shape_holds = False
+        reasons.append(
+            f"the plan's {_n(planned_cycles)} test cycles do not follow from its Weibull "
+            f"shape of {shape:g}"
+        )
+    r = (
+        demonstrated_reliability(list(cycles.values()), rated_cycles, confidence, shape, n_fail)
+        if cycles and shape_holds and not pending
+        else None
+    )
+    basis = (
+        f"{len(cycles)} specimen(s) reaching "
+        f"{', '.join(_n(c) for c in cycles.values())} cycles with {n_fail} failure(s)"
+    )
+    assumed = f"assuming a Weibull shape of {shape:g} (customer-supplied)"
+    if not reasons and r is not None:
+        return ReliabilityClaim(
+            STATED,
+            r,
+            n_fail,
+            None,
+            f"Interpretation, not a measured result: {basis} demonstrate a reliability of at "
+            f"least {r:.3f} at {_n(rated_cycles)} cycles with {confidence:.0%} confidence, "
+            f"{assumed}.",
+        )
+    reason = "; ".join(reasons)
+    text = f"Reliability claim withheld: {reason}."
+    if r is not None:
+        text += (
+            f" What can still be said, as an interpretation: {basis} show a reliability of "
+            f"at least {r:.3f} at {_n(rated_cycles)} cycles with {confidence:.0%} confidence "
+            f"(chi-squared with {2 * n_fail + 2} degrees of freedom), {assumed}"
+        )
+        text += f"; the plan set out to show {reliability:g}." if r < reliability else "."
+    return ReliabilityClaim(WITHHELD, r, n_fail, reason, text)

@@ -233,8 +233,9 @@ class RunJudgement:
 
 
 def interpret_endurance(data: J.RunData, verdicts: list[J.Verdict]) -> dict[str, Any] | None:
-    """Demonstrated reliability at the rated cycles from the cycles actually reached."""
-    from testplan.domain.stats import demonstrated_reliability
+    """The reliability demonstration at the rated cycles: stated when the plan's assumptions
+    held, withheld with the reason otherwise (``stats.reliability_claim``)."""
+    from testplan.domain.stats import reliability_claim
 
     if data.procedure.get("family") != "endurance":
         return None
@@ -245,38 +246,42 @@ def interpret_endurance(data: J.RunData, verdicts: list[J.Verdict]) -> dict[str,
     fails = [o for o in data.observations if o.kind == "failure"]
     failed_at = {o.specimen: float(o.data["cycles"]) for o in fails if o.specimen}
     # The failure definition counts ingress at the seal retest as a failure (by the end).
-    leaked = sorted(
-        {
-            v.specimen
-            for v in verdicts
-            if v.quantity in RETESTS and v.outcome == J.FAIL and v.specimen
-        }
-        - set(failed_at)
-    )
-    cycles = [min(failed_at.get(s, reached), reached) for s in data.specimens]
-    n_fail = len(fails) + len(leaked)
+    retest = [(v.specimen, v.outcome) for v in verdicts if v.quantity in RETESTS and v.specimen]
+    leaked = sorted({s for s, o in retest if o == J.FAIL} - set(failed_at))
+    pending = sorted({s for s, o in retest if o in (J.NO_DATA, J.NOT_RUN)} - set(failed_at))
+    cycles = {s: min(failed_at.get(s, reached), reached) for s in data.specimens}
+    counted = [(o.specimen or "rig", f"failure at {o.data['cycles']} cycles") for o in fails] + [
+        (s, "ingress at the seal retest") for s in leaked
+    ]
     rated = float(params["rated_cycles"]["value"])
     confidence = float(params["confidence"]["value"])
     shape = float(params["weibull_shape"]["value"])
-    r = demonstrated_reliability(cycles, rated, confidence, shape, n_fail)
+    claim = reliability_claim(
+        cycles=cycles,
+        failures=counted,
+        pending=pending,
+        planned_specimens=int(params["rig_specimens"]["value"]),
+        planned_cycles=float(params["test_cycles"]["value"]),
+        rated_cycles=rated,
+        reliability=float(params["reliability"]["value"]),
+        confidence=confidence,
+        shape=shape,
+        allowed_failures=int(params["allowed_failures"]["value"]),
+    )
     return {
         "kind": "interpretation",
         "what": "demonstrated reliability",
-        "reliability": r,
+        "status": claim.status,
+        "reason": claim.reason,
+        "reliability": claim.reliability,
+        "target_reliability": float(params["reliability"]["value"]),
         "confidence": confidence,
         "rated_cycles": rated,
         "weibull_shape": shape,
-        "cycles_per_specimen": cycles,
-        "failures": n_fail,
+        "cycles_per_specimen": list(cycles.values()),
+        "failures": claim.failures,
         "retest_failures": leaked,
-        "text": (
-            f"Interpretation, not a measured result: {len(cycles)} specimen(s) reaching "
-            f"{', '.join(f'{c:.0f}' for c in cycles)} cycles with {n_fail} failure(s) "
-            + (f"(ingress at the seal retest: {', '.join(leaked)}) " if leaked else "")
-            + f"demonstrate a reliability of at least {r:.3f} at {rated:.0f} cycles with "
-            f"{confidence:.0%} confidence, assuming a Weibull shape of {shape:g} "
-            "(customer-supplied)."
-        ),
+        "text": claim.text,
     }
 
 
