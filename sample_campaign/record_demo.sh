@@ -113,7 +113,7 @@ for n in 03 04 05; do
         --function pass --by AK $q
 done
 testplan record deviation $run --description "cabinet temperature 34.4 to 35.7 degC in the spray phase, above 35 degC for 40 min" \
-    --reason "cabinet heater controller overshoot after the door was opened" --approved-by MO --key "$keys/MO.pem" --by AK $q
+    --covers salt-mist.spray_temperature --reason "cabinet heater controller overshoot after the door was opened" --approved-by MO --key "$keys/MO.pem" --by AK $q
 testplan record finish $run --by AK --at 2027-01-21T08:00Z $q
 testplan record check $run "${jt[@]}" --at 2027-01-21T15:00Z $q
 
