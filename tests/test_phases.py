@@ -6,6 +6,8 @@ spray and a 22 h humid storage) and on a continuous ISO 9227 NSS cabinet.
 
 from __future__ import annotations
 
+import copy
+import datetime as dt
 from typing import Any
 
 import numpy as np
@@ -209,3 +211,53 @@ def test_phase_names_of_a_procedure_without_a_schedule() -> None:
     endurance: dict[str, Any] = {"family": "endurance", "parameters": {}}
     assert P.schedule(endurance) == [] and P.phase_names(endurance) == []
     assert P.phase_names(kb2().procedure) == ["salt_spray", "humid_storage"]
+
+
+def test_declared_phases_give_a_schedule_but_no_bands() -> None:
+    proc = (
+        plan(
+            target={"code": "IPX7"},
+            salt_mist={
+                "standard": "IEC 60068-2-52",
+                "test_method": 8,
+                "cycles": 2,
+                "phases": [
+                    {"name": "Spray", "duration": "2 h", "temperature": "35 degC"},
+                    {"name": "dry", "duration": "6 h", "temperature": "60 degC"},
+                ],
+            },
+        )
+        .procedure("salt-mist")
+        .to_json()
+    )
+    assert [(s.name, s.cycle, s.start_h, s.end_h) for s in P.schedule(proc)] == [
+        ("Spray", 1, 0.0, 2.0),
+        ("dry", 1, 2.0, 8.0),
+        ("Spray", 2, 8.0, 10.0),
+        ("dry", 2, 10.0, 16.0),
+    ]
+    assert not [c for c in proc["criteria"] if "phase" in c]
+    data = run("salt-mist", series("cabinet_temperature", [0, 5], [35.0, 35.2], "degC"), hours=16)
+    data.procedure = proc
+    (v,) = [x for x in J.judge_run(data, SIMPLE) if x.quantity == "cabinet_temperature"]
+    assert v.outcome == J.LOGGED_NO_BAND
+
+
+def test_a_shifted_start_or_a_phase_the_schedule_lacks_cannot_pass() -> None:
+    # The schedule is placed from the recorded start: a start recorded an hour early leaves
+    # the first hour of each spray phase without a reading.
+    data = kb2()
+    data.started_at = data.started_at - dt.timedelta(hours=1)
+    v = only(data, "salt-mist.spray_temperature")
+    assert v.outcome == J.NO_DATA
+    assert v.detail == (
+        "first cabinet_temperature reading 60 min after the phase began in the salt spray "
+        "phase of cycle 1"
+    )
+    data = kb2()
+    data.procedure = copy.deepcopy(data.procedure)
+    for c in data.procedure["criteria"]:
+        if c["id"] == "salt-mist.spray_temperature":
+            c["phase"] = "drying"
+    v = only(data, "salt-mist.spray_temperature")
+    assert v.outcome == J.NO_DATA and v.detail == "the run's phase schedule has no drying phase"

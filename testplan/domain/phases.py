@@ -16,7 +16,7 @@ import re
 from dataclasses import dataclass
 from typing import Any
 
-_PHASE = re.compile(r"^phase_(\d+)_([a-z0-9_]+)$")
+_PHASE = re.compile(r"^phase_(\d+)_(.+)$")
 
 
 @dataclass(frozen=True)

@@ -82,7 +82,6 @@ def phase_bands(pid: str, phases: set[str]) -> list[Criterion]:
             unit=unit,
             min=lo,
             max=hi,
-            text=f"during every {phase} phase",
             phase=phase.replace(" ", "_"),
         )
         for phase, key, channel, lo, hi, unit in PHASE_BANDS
