@@ -110,6 +110,12 @@ def test_demo_bench_work_records_its_runs_judges_them_and_checks_out(tmp_path: P
         ln.startswith("  PASS") and "salt-mist.humid_rh" in ln and "humid storage phase" in ln
         for ln in lines
     )
+    # The jets' nozzle pressure is logged but the plan gives it no band: shown, not judged.
+    assert any(
+        ln.startswith("  NOBAND water-6.logged_nozzle_pressure: 37 reading(s) from ")
+        and ln.endswith("kPa; the plan gives this channel no band")
+        for ln in lines
+    )
     # Signed off by three people, issued, and the PDF checks out against the store.
     assert lines[-1] == f"verified: {tmp_path / 'report.pdf'}"
     engine = sa.create_engine(f"sqlite:///{tmp_path / 'testplan.db'}")

@@ -196,7 +196,7 @@ def test_a_channel_the_plan_gives_no_band_is_logged_no_band() -> None:
     data = kb2(lab)
     (v,) = [x for x in J.judge_run(data, SIMPLE) if x.quantity == "ambient_temperature"]
     assert v.outcome == J.LOGGED_NO_BAND and v.criterion == "salt-mist.logged_ambient_temperature"
-    assert v.detail == "logged, no band in the plan: 73 reading(s) from 20 to 21.5 degC"
+    assert v.detail == ("73 reading(s) from 20 to 21.5 degC; the plan gives this channel no band")
     assert v.sources == ["ambient_temperature:None"]
     # Reported, never judged: it makes no run invalid and does not change a run's outcome.
     assert J.uncovered_conditions([(v.criterion, v.quantity, v.outcome)], set()) == []

@@ -1330,8 +1330,8 @@ def unbanded(run: RunData) -> list[Verdict]:
                 unit=s.unit,
                 window_start=_utc(float(s.t_us[0])),
                 window_end=_utc(float(s.t_us[-1])),
-                detail=f"logged, no band in the plan: {len(v)} reading(s) from "
-                f"{fmt(float(v.min()))} to {fmt(float(v.max()), s.unit)}",
+                detail=f"{len(v)} reading(s) from {fmt(float(v.min()))} to "
+                f"{fmt(float(v.max()), s.unit)}; the plan gives this channel no band",
                 sources=[s.source],
             )
         )

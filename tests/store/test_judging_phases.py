@@ -145,7 +145,7 @@ def test_a_spray_phase_breach_blocks_the_data_check_until_a_deviation_covers_it(
     assert kept["salt-mist.humid_temperature"][0] in ("pass", "conditional pass")
     assert kept["salt-mist.logged_ambient_temperature"] == (
         "logged, no band",
-        "logged, no band in the plan: 73 reading(s) from 21 to 21 degC",
+        "73 reading(s) from 21 to 21 degC; the plan gives this channel no band",
     )
     data = json.loads(bench("judge", RUN, "--json", ok=False).stdout)
     (run,) = data["runs"]
