@@ -11,7 +11,7 @@ from typing import Any
 from markupsafe import Markup
 
 from testplan.report.context import ReportContext
-from testplan.report.render import environment
+from testplan.report.render import environment, keep_whole
 
 
 def _css_string(text: Any) -> Markup:
@@ -29,6 +29,8 @@ def report_html(ctx: ReportContext, templates: str | Path | None = None) -> str:
     env = environment(templates)
     env.filters["css_string"] = _css_string
     env.filters["b64"] = _b64
+    env.filters["serials"] = keep_whole(ctx.keep_whole)  # serials and run keys
+    env.filters["serials_only"] = keep_whole([r.cells[0] for r in ctx.specimens])
     return env.get_template("report.html.j2").render(c=ctx)
 
 

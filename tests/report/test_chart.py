@@ -1,0 +1,54 @@
+"""The as-run calendar: drawn from the runs' recorded start and finish, every bar labelled."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+from testplan.report.chart import as_run_chart, bar_spans, duration_text
+
+T0 = dt.datetime(2027, 1, 12, 8, 5, tzinfo=dt.UTC)
+RUNS = [
+    {
+        "key": "water-6@aged-1",
+        "facility": "jet booth",
+        "start": T0,
+        "end": T0 + dt.timedelta(minutes=3),
+    },
+    {
+        "key": "water-8@aged-1",
+        "facility": "immersion tank",
+        "start": T0 + dt.timedelta(hours=2),
+        "end": T0 + dt.timedelta(hours=74),
+    },
+    {"key": "salt-mist@aged-1", "facility": None, "start": T0 + dt.timedelta(days=3), "end": None},
+]
+
+
+def test_bars_run_from_the_recorded_start_and_a_short_run_stays_visible() -> None:
+    first, span, bars = bar_spans(RUNS)
+    assert first == T0
+    # The running salt-mist run reaches the latest finish known (74 h after the first start).
+    assert span == 74 * 3600
+    assert bars[1] == (2 * 3600, 72 * 3600)
+    # 3 minutes of a 74-hour span would be a hairline: drawn 1/150 of the span wide instead.
+    assert bars[0] == (0, 74 * 3600 / 150)
+    assert bars[2][0] == 72 * 3600
+
+
+def test_each_bar_is_labelled_with_its_run_key_and_length() -> None:
+    svg = as_run_chart(RUNS, "Calendar as carried out").decode()
+    for run in RUNS:
+        assert run["key"] in svg
+    assert "180 s" in svg and "72 h" in svg and "still running" in svg
+    # 74 h is more than 3 days: read in days. The legend names facilities ("no facility"
+    # for a run without one).
+    assert "time from the first start, 2027-01-12 08:05 UTC (d)" in svg
+    assert "no facility" in svg
+
+
+def test_durations_read_in_the_unit_that_suits_them() -> None:
+    assert duration_text(180) == "180 s"
+    assert duration_text(240) == "240 s"
+    assert duration_text(3600) == "60 min"
+    assert duration_text(72 * 3600) == "72 h"
+    assert duration_text(4 * 86400) == "4 d"

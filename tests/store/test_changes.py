@@ -1,0 +1,72 @@
+"""A revision's "what changed" list, derived from the records (ISO/IEC 17025 cl. 7.8.8.2)."""
+
+from __future__ import annotations
+
+import pytest
+
+from testplan.store.changes import revision_changes
+from testplan.store.engine import open_store
+from testplan.store.records import find_campaign
+
+from .conftest import PASS, RUN, Bench, record_and_judge, sign
+
+
+@pytest.fixture
+def approved(bench: Bench, monkeypatch: pytest.MonkeyPatch) -> Bench:
+    """One run recorded, checked, judged and approved (not issued)."""
+    monkeypatch.setenv("TESTPLAN_KEY_PASSPHRASE", PASS)
+    record_and_judge(bench)
+    for role, who in (("prepared", "RP"), ("reviewed", "LV"), ("approved", "MO")):
+        bench(*sign(bench, role, who), "--quiet")
+    return bench
+
+
+def changes(b: Bench) -> tuple[str, list[str]] | None:
+    store = open_store(b.url)
+    try:
+        with store.reading() as session:
+            found = revision_changes(session, find_campaign(session, "QC-2027-014"))
+            return None if found is None else (found.reason, found.lines)
+    finally:
+        store.engine.dispose()
+
+
+def test_a_first_revision_has_no_change_list(approved: Bench) -> None:
+    assert changes(approved) is None
+
+
+def test_an_amended_revision_lists_exactly_the_records_changed(approved: Bench) -> None:
+    approved(
+        "amend", "QC-2027-014", "--why", "function check of S01 added", "--by", "MO", "--quiet"
+    )
+    # Amended, nothing changed yet: the reason, and no record changed.
+    assert changes(approved) == ("function check of S01 added", [])
+    approved(
+        *("record", "observe", RUN, "--specimen", "QC-2027-014-S01", "--function", "fail"),
+        *("--by", "AK", "--quiet"),
+    )
+    approved("judge", "--quiet", ok=False)
+    assert changes(approved) == (
+        "function check of S01 added",
+        [
+            f"{RUN}: function observation added on QC-2027-014-S01",
+            # Before, the plan's function check had no observation: no data.
+            f"{RUN}: judgement redone (run verdict changed from no data to fail); verdict "
+            "function (QC-2027-014-S01) changed from no data to fail",
+        ],
+    )
+
+
+def test_a_change_made_behind_the_tool_is_listed_too(approved: Bench) -> None:
+    # Someone holding the database changes a deviation's words after the amendment: the
+    # list names the record, whatever the tool did or did not log.
+    approved("amend", "QC-2027-014", "--why", "typo in a deviation", "--by", "MO", "--quiet")
+    approved.raw("UPDATE deviation SET reason = 'valve leak'")
+    reason, lines = changes(approved) or ("", [])
+    assert lines == [f"deviation on {RUN}: specimen temperature not logged: changed"]
+    # A record deleted behind the tool is named as removed.
+    approved.raw("DELETE FROM observation")
+    assert (
+        f"observation ingress on QC-2027-014-S01 in {RUN}: removed"
+        in (changes(approved) or ("", []))[1]
+    )
