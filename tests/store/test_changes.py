@@ -70,3 +70,32 @@ def test_a_change_made_behind_the_tool_is_listed_too(approved: Bench) -> None:
         f"observation ingress on QC-2027-014-S01 in {RUN}: removed"
         in (changes(approved) or ("", []))[1]
     )
+
+
+def test_the_revision_2_report_states_the_reason_and_exactly_that_change(approved: Bench) -> None:
+    from pypdf import PdfReader
+
+    # source: ISO/IEC 17025:2017 cl. 7.8.8.2 (from memory): an amended report says what
+    # changed and, where appropriate, why
+    approved(
+        "amend", "QC-2027-014", "--why", "function check of S01 added", "--by", "MO", "--quiet"
+    )
+    approved(
+        *("record", "observe", RUN, "--specimen", "QC-2027-014-S01", "--function", "pass"),
+        *("--by", "AK", "--quiet"),
+    )
+    approved("judge", "--quiet", ok=False)
+    pdf = approved.folder / "revision-2.pdf"
+    approved("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-03", "--quiet")
+    pages = [" ".join(p.extract_text().split()) for p in PdfReader(pdf).pages]
+    summary = " ".join(pages).split("Summary of results")[0]
+    assert "What changed in this revision" in summary
+    assert (
+        "Revision 2 amends revision 1: function check of S01 added (requested by MO on " in summary
+    )
+    part = summary.split("Changes in the records since the superseded revision:")[1]
+    assert part.strip() == (
+        f"{RUN}: function observation added on QC-2027-014-S01 {RUN}: judgement redone (run "
+        "verdict still no data); verdict function (QC-2027-014-S01) changed from no data to "
+        "pass"
+    )
