@@ -171,7 +171,8 @@ def condition_figure(run: J.RunData, c: J.Criterion) -> Figure | None:
             note = "; zoomed on the exposure, lowering and raising run off-scale"
     _legend(ax)
     when = {"whole_run": "over the run", "per_period": "per period", "at_start": "at the start"}
-    caption = f"{run.key}: {c.quantity} {when.get(c.when, '')} against {c.shown_limits()}{note}"
+    words = c.quantity.replace("_", " ")
+    caption = f"{run.key}: {words} {when.get(c.when, '')} against {c.shown_limits()}{note}"
     return Figure(caption, _svg(fig))
 
 

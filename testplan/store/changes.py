@@ -222,7 +222,7 @@ def compare(session: Session, stored: list[list[str]], now: list[Any]) -> list[s
 def revision_changes(session: Session, campaign: CampaignRecord) -> RevisionChanges | None:
     """For a revision after the first: the latest amendment's reason and what changed in
     the records since the manifest it superseded. None for a first revision."""
-    from testplan.store.signoff import compute_items, report_revision
+    from testplan.store.signoff import _h, compute_items, report_revision
 
     amendment = session.exec(
         select(Amendment)
@@ -234,10 +234,19 @@ def revision_changes(session: Session, campaign: CampaignRecord) -> RevisionChan
     manifest = session.get(Manifest, amendment.supersedes_manifest_id)
     assert manifest is not None  # a foreign key
     stored = json.loads(manifest.body_json)
+    if _h(stored) != manifest.root:
+        # Edited behind the tool (the SQLite file; PostgreSQL refuses it by trigger): its
+        # items are no longer what was signed, so no list is drawn from them.
+        lines = [
+            f"the manifest of revision {report_revision(session, campaign.id) - 1} no longer "
+            "matches its signed root: the changes cannot be listed (run `testplan verify`)"
+        ]
+    else:
+        lines = compare(session, stored, compute_items(session, campaign))
     return RevisionChanges(
         revision=report_revision(session, campaign.id),
         reason=amendment.reason,
         requested_by=amendment.requested_by,
         at=f"{amendment.at:%Y-%m-%d}",
-        lines=compare(session, stored, compute_items(session, campaign)),
+        lines=lines,
     )

@@ -163,7 +163,7 @@ def test_editions_cautions_and_guidance_for_the_reader(report) -> None:  # type:
 
 def test_plots_are_present(report) -> None:  # type: ignore[no-untyped-def]
     body = text(report)
-    assert "Figure 1. water-8@ip-verification-1: lowest_point_depth over the run" in body
+    assert "Figure 1. water-8@ip-verification-1: lowest point depth over the run" in body
     assert "Campaign calendar" in body
     pdf, pages, reader = report
     figure_page = next(i for i, p in enumerate(pages) if "Figure 1." in p)

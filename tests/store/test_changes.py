@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import pytest
+import sqlalchemy as sa
 
 from testplan.store.changes import revision_changes
 from testplan.store.engine import open_store
@@ -98,4 +99,29 @@ def test_the_revision_2_report_states_the_reason_and_exactly_that_change(approve
         f"{RUN}: function observation added on QC-2027-014-S01 {RUN}: judgement redone (run "
         "verdict still no data); verdict function (QC-2027-014-S01) changed from no data to "
         "pass"
+    )
+
+
+def test_an_edited_superseded_manifest_gives_no_list_but_says_so(approved: Bench) -> None:
+    # To hide a change, edit the superseded manifest's items so they match the records now.
+    approved(
+        "amend", "QC-2027-014", "--why", "function check of S01 added", "--by", "MO", "--quiet"
+    )
+    approved(
+        *("record", "observe", RUN, "--specimen", "QC-2027-014-S01", "--function", "fail"),
+        *("--by", "AK", "--quiet"),
+    )
+    forged = "[]"
+    if approved.url.startswith("postgresql"):
+        # The bench database refuses any change to a sign-off record.
+        with pytest.raises(sa.exc.DBAPIError, match="manifest records are append-only"):
+            approved.raw("UPDATE manifest SET body_json = :b", b=forged)
+        return
+    approved.raw("UPDATE manifest SET body_json = :b", b=forged)
+    assert changes(approved) == (
+        "function check of S01 added",
+        [
+            "the manifest of revision 1 no longer matches its signed root: the changes "
+            "cannot be listed (run `testplan verify`)"
+        ],
     )
