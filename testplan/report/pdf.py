@@ -58,6 +58,7 @@ def context_json(ctx: ReportContext) -> dict[str, Any]:
     """The context as plain data (figures and photos without their image payloads)."""
     data = asdict(ctx)
     data.pop("calendar_svg", None)
+    data.pop("as_run_svg", None)
     for run in data["runs"]:
         for f in run["figures"]:
             f.pop("svg")

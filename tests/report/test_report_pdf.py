@@ -310,3 +310,25 @@ def test_the_calendar_is_the_one_carried_out_with_each_run_labelled(report) -> N
     assert "time from the first start, 2027-01-12 11:00 UTC (d)" in page
     assert "3.75 d" in page  # the rig ran 2027-01-12 11:00 to 2027-01-16 05:05
     assert "Calendar as planned (for comparison; not the dates of test)" in text(report)
+
+
+def test_the_context_as_data_carries_no_image_payloads(report) -> None:  # type: ignore[no-untyped-def]
+    import datetime as dt
+    import json
+
+    from testplan.report.context import build
+    from testplan.report.pdf import context_json
+    from testplan.store.engine import open_store
+    from testplan.store.reporting import load_report
+
+    store = open_store(f"sqlite:///{report[0].parent.parent / 'lab.db'}")
+    try:
+        with store.reading() as session:
+            data = load_report(session, "QC-2027-014")
+    finally:
+        store.dispose()
+    ctx = build(data, issue_date=dt.date(2027, 2, 1), paper="A4")
+    assert ctx.as_run_svg and ctx.calendar_svg and ctx.runs[1].figures
+    plain = json.dumps(context_json(ctx))
+    assert "<svg" not in plain and "data:image" not in plain
+    assert "where: drop under the lid seal at the cable entry" in plain
