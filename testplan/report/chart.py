@@ -120,11 +120,27 @@ def bar_spans(runs: list[dict[str, Any]]) -> tuple[dt.datetime, float, list[tupl
 
 
 def as_run_chart(runs: list[dict[str, Any]], title: str, fmt: str = "svg") -> bytes:
+    """The campaign as carried out (``as_run_figure``) as image bytes in ``fmt``."""
+    import matplotlib
+    import matplotlib.pyplot as plt
+
+    fig = as_run_figure(runs, title)
+    buf = io.BytesIO()
+    with matplotlib.rc_context({"svg.fonttype": "none"}):  # labels stay text in the PDF
+        fig.savefig(
+            buf, format=fmt, bbox_inches="tight", metadata={"Date": None} if fmt == "svg" else None
+        )
+    plt.close(fig)
+    return buf.getvalue()
+
+
+def as_run_figure(runs: list[dict[str, Any]], title: str) -> Any:
     """The campaign as carried out: one row per run (labelled with its key), a bar from its
     real start to its finish coloured by facility, its length written beside it; a run
     shorter than 1/150 of the span is drawn that wide so it stays visible. The time axis is
     in the unit that suits the span (from the first start); the legend sits below the plot.
-    ``runs``: key, facility, start, end (aware datetimes; end None while running)."""
+    ``runs``: key, facility, start, end (aware datetimes; end None while running). Returns
+    the matplotlib figure (the caller closes it)."""
     import matplotlib
 
     matplotlib.use("Agg")
@@ -177,10 +193,4 @@ def as_run_chart(runs: list[dict[str, Any]], title: str, fmt: str = "svg") -> by
         frameon=False,
     )
     fig.tight_layout()
-    buf = io.BytesIO()
-    with matplotlib.rc_context({"svg.fonttype": "none"}):  # labels stay text in the PDF
-        fig.savefig(
-            buf, format=fmt, bbox_inches="tight", metadata={"Date": None} if fmt == "svg" else None
-        )
-    plt.close(fig)
-    return buf.getvalue()
+    return fig

@@ -52,3 +52,24 @@ def test_durations_read_in_the_unit_that_suits_them() -> None:
     assert duration_text(3600) == "60 min"
     assert duration_text(72 * 3600) == "72 h"
     assert duration_text(4 * 86400) == "4 d"
+
+
+def test_the_legend_stands_below_the_data() -> None:
+    import matplotlib.pyplot as plt
+
+    from testplan.report.chart import as_run_figure
+
+    fig = as_run_figure(RUNS, "Calendar as carried out")
+    try:
+        fig.canvas.draw()
+        ax = fig.axes[0]
+        legend = ax.get_legend().get_window_extent()
+        axes = ax.get_window_extent()
+        assert legend.y1 < axes.y0  # wholly below the plotting area: no bar behind it
+        assert [t.get_text() for t in ax.get_legend().get_texts()] == [
+            "immersion tank",
+            "jet booth",
+            "no facility",
+        ]
+    finally:
+        plt.close(fig)
