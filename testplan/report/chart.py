@@ -14,9 +14,30 @@ def _style(ax: Any, title: str) -> None:
     ax.set_title(title, fontsize=10, loc="left")
 
 
+def _image(fig: Any, fmt: str) -> bytes:
+    """A calendar figure as image bytes in ``fmt`` (svg or png), its text kept as text and
+    the legend outside the axes kept in the picture; the figure is closed."""
+    import matplotlib
+    import matplotlib.pyplot as plt
+
+    buf = io.BytesIO()
+    with matplotlib.rc_context({"svg.fonttype": "none"}):  # labels stay text in the PDF
+        fig.savefig(
+            buf, format=fmt, bbox_inches="tight", metadata={"Date": None} if fmt == "svg" else None
+        )
+    plt.close(fig)
+    return buf.getvalue()
+
+
 def calendar_chart(schedule: dict[str, Any], title: str, fmt: str = "svg") -> bytes:
+    """The planned calendar (``calendar_figure``) as image bytes in ``fmt`` (svg or png)."""
+    return _image(calendar_figure(schedule, title), fmt)
+
+
+def calendar_figure(schedule: dict[str, Any], title: str) -> Any:
     """Draw the schedule: a row per facility (runs without one per leg), bars per run,
-    the due date as a vertical line. Returns the image bytes in ``fmt`` (svg or png)."""
+    the due date as a vertical line, the legend right of the axes. Returns the matplotlib
+    figure (``_image`` closes it)."""
     import matplotlib
 
     matplotlib.use("Agg")
@@ -86,15 +107,14 @@ def calendar_chart(schedule: dict[str, Any], title: str, fmt: str = "svg") -> by
         handles,
         legs,
         fontsize=7,
-        loc="lower right",
+        loc="upper left",
+        bbox_to_anchor=(1.01, 1.0),
         title="leg (black edge: critical)",
         title_fontsize=7,
+        frameon=False,
     )
     fig.tight_layout()
-    buf = io.BytesIO()
-    fig.savefig(buf, format=fmt, metadata={"Date": None} if fmt == "svg" else None)
-    plt.close(fig)
-    return buf.getvalue()
+    return fig
 
 
 def duration_text(seconds: float) -> str:
@@ -121,17 +141,7 @@ def bar_spans(runs: list[dict[str, Any]]) -> tuple[dt.datetime, float, list[tupl
 
 def as_run_chart(runs: list[dict[str, Any]], title: str, fmt: str = "svg") -> bytes:
     """The campaign as carried out (``as_run_figure``) as image bytes in ``fmt``."""
-    import matplotlib
-    import matplotlib.pyplot as plt
-
-    fig = as_run_figure(runs, title)
-    buf = io.BytesIO()
-    with matplotlib.rc_context({"svg.fonttype": "none"}):  # labels stay text in the PDF
-        fig.savefig(
-            buf, format=fmt, bbox_inches="tight", metadata={"Date": None} if fmt == "svg" else None
-        )
-    plt.close(fig)
-    return buf.getvalue()
+    return _image(as_run_figure(runs, title), fmt)
 
 
 def as_run_figure(runs: list[dict[str, Any]], title: str) -> Any:

@@ -73,3 +73,24 @@ def test_the_legend_stands_below_the_data() -> None:
         ]
     finally:
         plt.close(fig)
+
+
+def test_the_planned_calendar_keeps_its_legend_right_of_the_data() -> None:
+    import matplotlib.pyplot as plt
+
+    from testplan.domain.planner import build_plan
+    from testplan.reader import read_campaign
+    from testplan.report.chart import calendar_chart, calendar_figure
+    from tests.store.conftest import SAMPLE
+
+    schedule = build_plan(read_campaign(SAMPLE).campaign).to_json()["schedule"]
+    fig = calendar_figure(schedule, "Calendar as planned")
+    try:
+        fig.canvas.draw()
+        ax = fig.axes[0]
+        assert ax.get_legend().get_window_extent().x0 > ax.get_window_extent().x1
+    finally:
+        plt.close(fig)
+    # The saved picture keeps the legend (cropped to what is drawn) and its text as text.
+    svg = calendar_chart(schedule, "Calendar as planned").decode()
+    assert "leg (black edge: critical)" in svg and "ip-verification" in svg
