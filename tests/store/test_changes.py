@@ -125,3 +125,28 @@ def test_an_edited_superseded_manifest_gives_no_list_but_says_so(approved: Bench
             "cannot be listed (run `testplan verify`)"
         ],
     )
+
+
+def test_a_run_started_with_a_new_calibration_shows_the_calibration_replaced(
+    approved: Bench,
+) -> None:
+    from .conftest import START
+
+    approved("amend", "QC-2027-014", "--why", "second immersion run added", "--by", "MO", "--quiet")
+    approved(
+        *("equipment", "calibrate", "LT-03", "--channel", "lowest_point_depth"),
+        *("--certificate", "VC-2027-007", "--provider", "Gellimoor Calibration Ltd"),
+        *("--calibrated", "2027-01-20", "--due", "2028-01-20", "--uncertainty", "3 mm"),
+        *("--range", "0 mm", "3000 mm", "--by", "AK", "--quiet"),
+    )
+    other = "water-8@aged-1"
+    approved("record", "start", other, *START, "--at", "2027-01-21T09:00Z", "--quiet")
+    reason, lines = changes(approved) or ("", [])
+    assert reason == "second immersion run added"
+    assert lines == [
+        f"run {other} changed; now running",
+        "calibration of LT-03 (lowest_point_depth) replaced: certificate VC-2026-118 by "
+        "VC-2027-007 (due 2028-01-20)",
+        # LT-03's water temperature channel was not recalibrated: the old one is now used
+        # by this run too, and was already in the signed records.
+    ]
