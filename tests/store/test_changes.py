@@ -150,3 +150,33 @@ def test_a_run_started_with_a_new_calibration_shows_the_calibration_replaced(
         # LT-03's water temperature channel was not recalibrated: the old one is now used
         # by this run too, and was already in the signed records.
     ]
+
+
+def test_an_invalidated_run_and_its_repeat_are_worded(
+    bench: Bench, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # compare() on its own: the records before and after a run is declared invalid.
+    from testplan.store.changes import compare
+    from testplan.store.signoff import compute_items
+
+    monkeypatch.setenv("TESTPLAN_KEY_PASSPHRASE", PASS)
+    record_and_judge(bench, until_finished=True)
+    store = open_store(bench.url)
+    try:
+        with store.reading() as session:
+            camp = find_campaign(session, "QC-2027-014")
+            before = [i.to_json() for i in compute_items(session, camp)]
+        bench("record", "invalidate", RUN, "--reason", "tank level dipped at hour 10", "--by", "MO")
+        with store.reading() as session:
+            lines = compare(
+                session, before, compute_items(session, find_campaign(session, "QC-2027-014"))
+            )
+    finally:
+        store.dispose()
+    assert lines[:2] == [
+        f"run {RUN} declared invalid: tank level dipped at hour 10",
+        f"run {RUN}-repeat2 added, repeating {RUN} (planned)",
+    ]
+    # Declaring it invalid judges it: a first judgement, with the outcome it keeps.
+    (outcome,) = bench.sql("SELECT outcome FROM judgement")[0]
+    assert lines[2:] == [f"{RUN}: judged, {outcome}"]
