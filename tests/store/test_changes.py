@@ -9,7 +9,7 @@ from testplan.store.changes import revision_changes
 from testplan.store.engine import open_store
 from testplan.store.records import find_campaign
 
-from .conftest import PASS, RUN, Bench, record_and_judge, sign
+from .conftest import PASS, RUN, Bench, approve_and_issue, record_and_judge, sign
 
 
 @pytest.fixture
@@ -86,9 +86,10 @@ def test_the_revision_2_report_states_the_reason_and_exactly_that_change(approve
         *("--by", "AK", "--quiet"),
     )
     approved("judge", "--quiet", ok=False)
-    pdf = approved.folder / "revision-2.pdf"
-    approved("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-03", "--quiet")
+    # Approved again and issued: the issued revision 2 states what changed.
+    pdf = approve_and_issue(approved, "revision-2.pdf")
     pages = [" ".join(p.extract_text().split()) for p in PdfReader(pdf).pages]
+    assert "Authorised report" in pages[0] and "DRAFT" not in pages[0]
     summary = " ".join(pages).split("Summary of results")[0]
     assert "What changed in this revision" in summary
     assert (
