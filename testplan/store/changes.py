@@ -62,15 +62,12 @@ def _get(session: Session, table: Any, text: str) -> Any:
 
 def _outcomes(session: Session, judgement_ids: list[uuid.UUID]) -> dict[tuple[str, str], str]:
     """(criterion, specimen) -> outcome of the given judgements' verdicts."""
-    serials = {s.id: s.serial for s in session.exec(select(SpecimenRecord)).all()}
     out: dict[tuple[str, str], str] = {}
-    if not judgement_ids:
-        return out
     for v in session.exec(
         select(VerdictRecord).where(col(VerdictRecord.judgement_id).in_(judgement_ids))
     ).all():
-        who = serials.get(v.specimen_id, "all") if v.specimen_id else "all"
-        out[(v.criterion_key.split(".", 1)[-1], who)] = v.outcome
+        spec = session.get(SpecimenRecord, v.specimen_id) if v.specimen_id else None
+        out[(v.criterion_key.split(".", 1)[-1], spec.serial if spec else "all")] = v.outcome
     return out
 
 
