@@ -15,13 +15,16 @@ from testplan.domain.plan import Comparison, Procedure, When
 ROOT = Path(__file__).resolve().parents[1]
 VALIDATION = ROOT / "docs" / "validation.md"
 README = ROOT / "README.md"
-# ISO/IEC 17025:2017 cl. 7.8.2.1 items a) to p), then 7.8.2.2, 7.8.3.1, 7.8.6, 7.8.7
+# ISO/IEC 17025:2017 cl. 7.8.2.1 items a) to p), then 7.8.2.2, 7.8.3.1, 7.8.6, 7.8.7 and the
+# amendment of an issued report, 7.8.8.1 and 7.8.8.2
 # source: ISO/IEC 17025:2017 cl. 7.8 (from memory)
 REPORT_ITEMS = [f"REP-7.8.2.1{c}" for c in "abcdefghijklmnop"] + [
     "REP-7.8.2.2",
     "REP-7.8.3.1",
     "REP-7.8.6",
     "REP-7.8.7",
+    "REP-7.8.8.1",
+    "REP-7.8.8.2",
 ]
 
 

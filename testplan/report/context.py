@@ -95,6 +95,7 @@ class RunSection:
     figures: list[Figure]
     photos: list[Photo]
     notes: list[str]
+    observations: list[Row] = field(default_factory=list)
 
 
 @dataclass
@@ -137,6 +138,10 @@ class ReportContext:
     manifest_root: str | None = None
     figure_count: int = 0
     notes: list[str] = field(default_factory=list)
+    keep_whole: list[str] = field(default_factory=list)  # serials and run keys
+    amendment: str | None = None
+    changes: list[str] = field(default_factory=list)
+    as_run_svg: str | None = None
 
 
 def _date(t: dt.datetime | dt.date | None) -> str:
@@ -162,12 +167,12 @@ def _param(d: dict[str, Any]) -> str:
 
 def _method(proc: dict[str, Any]) -> str:
     std = proc["standard"]
-    return f"{std['name']}:{std['edition']}" + (
-        f", {cite(proc['clause'])}" if proc["clause"] else ""
-    )
+    name = f"{std['name']}:{std['edition']}" if std.get("edition") else std["name"]
+    return name + (f", {cite(proc['clause'])}" if proc["clause"] else "")
 
 
 def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
+    from testplan.report.evidence import observation_rows
     from testplan.report.plots import run_figures
 
     run, proc = r.run, r.procedure
@@ -292,6 +297,7 @@ def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
         figures=figures,
         photos=photos,
         notes=notes,
+        observations=[Row(cells) for cells in observation_rows(r.observations)],
     )
 
 
@@ -338,7 +344,43 @@ def _deviation_lines(data: ReportData) -> list[str]:
 
 
 # Fields that hold markup or data, never prose.
-NOT_TEXT = frozenset({"svg", "data_uri", "calendar_svg", "sha256"})
+NOT_TEXT = frozenset({"svg", "data_uri", "calendar_svg", "as_run_svg", "sha256", "keep_whole"})
+
+
+def _svg(data: bytes) -> str:
+    text = data.decode()
+    return text[text.index("<svg") :]
+
+
+def _as_run(data: ReportData) -> str | None:
+    """The as-run calendar: every run started, from its real start to its finish."""
+    from testplan.report.chart import as_run_chart
+
+    runs = [
+        {
+            "key": r.run.key,
+            "facility": r.run.facility,
+            "start": r.run.started_at,
+            "end": r.run.finished_at,
+        }
+        for r in data.runs
+        if r.run.started_at is not None
+    ]
+    if not runs:
+        return None
+    return _svg(as_run_chart(runs, "Calendar as carried out (real start and finish of each run)"))
+
+
+def _amendment(data: ReportData) -> tuple[str | None, list[str]]:
+    """The amendment that opened this revision, in one line, and what changed since."""
+    found = data.extras.get("changes")
+    if found is None:
+        return None, []
+    line = (
+        f"Revision {found.revision} amends revision {found.revision - 1}: {found.reason} "
+        f"(requested by {found.requested_by} on {found.at})"
+    )
+    return line, list(found.lines) or ["no record changed"]
 
 
 def _typeset(value: Any) -> Any:
@@ -462,9 +504,12 @@ def build(
     ]
     calendar = None
     if plan.get("schedule"):
-        svg = calendar_chart(plan["schedule"], f"Calendar, plan revision {data.revision.number}")
-        text = svg.decode()
-        calendar = text[text.index("<svg") :]
+        calendar = _svg(
+            calendar_chart(
+                plan["schedule"], f"Calendar as planned, plan revision {data.revision.number}"
+            )
+        )
+    amendment, changes = _amendment(data)
     state = data.signoff
     signatures = [Row([role, who, at, fp]) for role, who, at, fp in state.signers]
     titles = data.extras.get("titles", {})
@@ -511,6 +556,16 @@ def build(
         deviations=_deviation_lines(data),
         decision_explained=DECISION_EXPLAINED,
         figure_count=figure_no - 1,
+        keep_whole=sorted(
+            {
+                *receipt,
+                *(r.run.key for r in data.runs),
+                *(p["run"] for p in roll.get("not_performed", [])),
+            }
+        ),
+        amendment=amendment,
+        changes=changes,
+        as_run_svg=_as_run(data),
     )
     _typeset(ctx)
     return ctx

@@ -11,7 +11,7 @@ from typing import Any
 from markupsafe import Markup
 
 from testplan.report.context import ReportContext
-from testplan.report.render import environment
+from testplan.report.render import environment, keep_whole
 
 
 def _css_string(text: Any) -> Markup:
@@ -29,6 +29,8 @@ def report_html(ctx: ReportContext, templates: str | Path | None = None) -> str:
     env = environment(templates)
     env.filters["css_string"] = _css_string
     env.filters["b64"] = _b64
+    env.filters["serials"] = keep_whole(ctx.keep_whole)  # serials and run keys
+    env.filters["serials_only"] = keep_whole([r.cells[0] for r in ctx.specimens])
     return env.get_template("report.html.j2").render(c=ctx)
 
 
@@ -56,6 +58,7 @@ def context_json(ctx: ReportContext) -> dict[str, Any]:
     """The context as plain data (figures and photos without their image payloads)."""
     data = asdict(ctx)
     data.pop("calendar_svg", None)
+    data.pop("as_run_svg", None)
     for run in data["runs"]:
         for f in run["figures"]:
             f.pop("svg")

@@ -101,13 +101,18 @@ def _limits(ax: Any, c: J.Criterion, label: bool = True) -> None:
             )
 
 
-def time_unit(run: J.RunData) -> tuple[str, float]:
-    """The time unit for a run's plots and its length in seconds: s, min, h or d."""
-    length = (run.finished_at - run.started_at).total_seconds()
+def span_unit(length_s: float) -> tuple[str, float]:
+    """The time unit a span of ``length_s`` seconds reads best in, and the unit's length
+    in seconds: s, min, h or d."""
     for up_to, unit, seconds in TIME_UNITS:
-        if length <= up_to:
+        if length_s <= up_to:
             return unit, seconds
     return "d", 86400.0
+
+
+def time_unit(run: J.RunData) -> tuple[str, float]:
+    """The time unit for a run's plots and its length in seconds: s, min, h or d."""
+    return span_unit((run.finished_at - run.started_at).total_seconds())
 
 
 def _since_start(run: J.RunData, t_us: Any) -> Any:
@@ -166,7 +171,8 @@ def condition_figure(run: J.RunData, c: J.Criterion) -> Figure | None:
             note = "; zoomed on the exposure, lowering and raising run off-scale"
     _legend(ax)
     when = {"whole_run": "over the run", "per_period": "per period", "at_start": "at the start"}
-    caption = f"{run.key}: {c.quantity} {when.get(c.when, '')} against {c.shown_limits()}{note}"
+    words = c.quantity.replace("_", " ")
+    caption = f"{run.key}: {words} {when.get(c.when, '')} against {c.shown_limits()}{note}"
     return Figure(caption, _svg(fig))
 
 

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -71,6 +72,31 @@ def unbroken(text: str) -> markupsafe.Markup:
     return markupsafe.Markup(", ").join(
         markupsafe.Markup('<span class="nb">{}</span>').format(p) for p in parts
     )
+
+
+def keep_whole(words: list[str]) -> Callable[[Any], markupsafe.Markup]:
+    """A filter that escapes a text and keeps each of ``words`` (serials) on one line."""
+    import re
+
+    pattern = (
+        re.compile(
+            "|".join(
+                re.escape(str(markupsafe.escape(w))) for w in sorted(words, key=len, reverse=True)
+            )
+        )
+        if words
+        else None
+    )
+
+    def whole(text: Any) -> markupsafe.Markup:
+        escaped = str(markupsafe.escape(text))
+        if pattern is None:
+            return markupsafe.Markup(escaped)
+        return markupsafe.Markup(
+            pattern.sub(lambda m: f'<span class="nb">{m.group(0)}</span>', escaped)
+        )
+
+    return whole
 
 
 def render(name: str, context: dict[str, Any], override: str | Path | None = None) -> str:

@@ -13,9 +13,11 @@ SI_UNITS = (
     (r"\bMohm\b", "MΩ"),
     (r"\bkohm\b", "kΩ"),
     (r"\bohm\b", "Ω"),
-    (r"\bm\^3\b", "m³"),
-    (r"\bcm\^2\b", "cm²"),
-    (r"\bm\^2\b", "m²"),
+    # a power written with a caret, also straight after a number ("80cm^2"), which also
+    # gets the space SI puts between a number and its unit
+    (r"(?<=\d)(?=[a-zA-Z]+\^[23]\b)", " "),
+    (r"(?<=[a-zA-Z])\^2\b", "²"),
+    (r"(?<=[a-zA-Z])\^3\b", "³"),
 )
 
 

@@ -47,6 +47,8 @@ class RunRecordData:
     verdicts: list[tuple[VerdictRecord, str | None]]
     photos: list[tuple[Observation, Attachment, str | None]]
     evidence: J.RunData | None
+    # every observation of the run: (observation, specimen serial, recorder's initials)
+    observations: list[tuple[Observation, str | None, str | None]] = field(default_factory=list)
 
 
 @dataclass
@@ -124,6 +126,7 @@ def load_report(session: Session, campaign: str | None) -> ReportData:
         .where(RunRecord.campaign_id == camp.id, col(RunRecord.started_at).is_not(None))
         .order_by(col(RunRecord.started_at), col(RunRecord.key))
     ).all()
+    initials = {p.id: p.initials for p in session.exec(select(Person)).all()}
     for run in rows:
         serial_of = {s.id: s.serial for s in run_specimens(session, run)}
         equipment = [
@@ -167,6 +170,18 @@ def load_report(session: Session, campaign: str | None) -> ReportData:
                 .order_by(col(Deviation.recorded_at))
             ).all()
         ]
+        observations = [
+            (
+                o,
+                serial_of.get(o.specimen_id) if o.specimen_id else None,
+                initials.get(o.recorded_by_id),
+            )
+            for o in session.exec(
+                select(Observation)
+                .where(Observation.run_id == run.id)
+                .order_by(col(Observation.recorded_at), col(Observation.kind))
+            ).all()
+        ]
         finished = run.state in ("finished", "checked", "invalid")
         runs.append(
             RunRecordData(
@@ -189,8 +204,10 @@ def load_report(session: Session, campaign: str | None) -> ReportData:
                 verdicts=verdicts,
                 photos=photos,
                 evidence=load_run(session, run) if finished else None,
+                observations=observations,
             )
         )
+    from testplan.store.changes import revision_changes
     from testplan.store.signoff import signoff_state
 
     titles = {p.initials: p.title for p in session.exec(select(Person)).all() if p.title}
@@ -203,5 +220,9 @@ def load_report(session: Session, campaign: str | None) -> ReportData:
         runs=runs,
         rollup=rollup(session, camp).to_json(),
         rule=rule_of(plan),
-        extras={"generated": dt.datetime.now(dt.UTC), "titles": titles},
+        extras={
+            "generated": dt.datetime.now(dt.UTC),
+            "titles": titles,
+            "changes": revision_changes(session, camp),
+        },
     )

@@ -2,126 +2,28 @@
 
 from __future__ import annotations
 
-import datetime as dt
 import re
 from pathlib import Path
 
 import pytest
 from pypdf import PdfReader
 
-from tests.store.conftest import SAMPLE, START, Bench
-
-RUN = "water-8@ip-verification-1"
-KNOB = "endurance-mode-selector-knob@aged-1"
+from tests.report.conftest import KNOB, RUN, build_store
+from tests.store.conftest import Bench
 
 
 @pytest.fixture(scope="module")
 def report(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[str], PdfReader]:
-    """A store with an immersion (with a dip) and an endurance run, judged and reported."""
+    """The fixture store (tests/report/conftest.py), reported once."""
     folder = tmp_path_factory.mktemp("report")
-    b = Bench(f"sqlite:///{folder / 'lab.db'}", folder)
-    b.found()
-    b.add("AK", "Anna Kowal", "operator")
-    b.add("MO", "Mark Osei", "checker", "approver")
-    b.enrol("MO")
-    b("init", str(SAMPLE), "--quiet")
-    b(
-        "record",
-        "receive",
-        "QC-2027-014-S01",
-        "QC-2027-014-S02",
-        "--on",
-        "2027-01-06",
-        "--condition",
-        "new, sealed carton",
-        "--by",
-        "AK",
-        "--quiet",
-    )
-    for tag, channel, u in (("LT-03", "lowest_point_depth", "4 mm"), ("TQ-11", "cycle_count", "0")):
-        b("equipment", "add", tag, "--description", f"{channel} sensor", "--quiet")
-        b(
-            "equipment",
-            "calibrate",
-            tag,
-            "--channel",
-            channel,
-            "--certificate",
-            f"VC-{tag}",
-            "--provider",
-            "Gellimoor Calibration Ltd",
-            "--calibrated",
-            "2026-06-01",
-            "--due",
-            "2027-06-01",
-            "--uncertainty",
-            u,
-            "--quiet",
-        )
-    b(
-        "record",
-        "start",
-        RUN,
-        *START,
-        "--at",
-        "2027-01-12T16:05Z",
-        "--deviation",
-        "tank topped up during the run",
-        "--deviation-reason",
-        "evaporation",
-        "--approved-by",
-        "MO",
-        "--key",
-        b.key("MO"),
-        "--quiet",
-    )
-    t0 = dt.datetime(2027, 1, 12, 16, 5, tzinfo=dt.UTC)
-    rows = ["time,depth"]
-    for m in range(4400):
-        depth = 2000.0 if m in (600, 601) else 2100.0
-        rows.append(f"{t0 + dt.timedelta(minutes=m):%Y-%m-%dT%H:%M:%SZ},{depth}")
-    tank = b.write("tank.csv", "\n".join(rows) + "\n")
-    b(
-        "record",
-        "import",
-        RUN,
-        str(tank),
-        "--map",
-        "depth[mm]=lowest_point_depth@LT-03",
-        "--by",
-        "AK",
-        "--quiet",
-    )
-    b("record", "finish", RUN, "--by", "AK", "--at", "2027-01-15T17:30Z", "--quiet")
-    # The dip is a failed test condition: the run is declared invalid and its repeat planned.
-    b("record", "invalidate", RUN, "--reason", "tank level dipped at hour 10", "--by", "MO")
-    start = [a if a != "LT-03" else "TQ-11" for a in START]
-    b("record", "start", KNOB, *start, "--at", "2027-01-12T11:00Z", "--quiet")
-    k0 = dt.datetime(2027, 1, 12, 11, tzinfo=dt.UTC)
-    rig = b.write(
-        "rig.csv",
-        "time,cycles\n"
-        + "".join(
-            f"{k0 + dt.timedelta(minutes=c / 10):%Y-%m-%dT%H:%M:%SZ},{c}\n"
-            for c in range(0, 54_001, 1000)
-        ),
-    )
-    b(
-        "record",
-        "import",
-        KNOB,
-        str(rig),
-        "--map",
-        "cycles[cycle]=cycle_count@TQ-11",
-        "--by",
-        "AK",
-        "--quiet",
-    )
-    b("record", "finish", KNOB, "--by", "AK", "--at", "2027-01-16T05:05Z", "--quiet")
-    b("judge", "--quiet", ok=False)
+    b = build_store(folder)
     pdf = folder / "out" / "report.pdf"
     pdf.parent.mkdir()
-    result = b("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01")
+    html = folder / "report.html"  # the HTML that was printed, for per-cell text checks
+    result = b(
+        *("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01"),
+        *("--html", str(html)),
+    )
     assert result.stdout.strip() == f"wrote {pdf}"
     # Progress on stderr while it renders: each run's section with its plots, then printing.
     assert "run 1 of 2 drawn: " in result.stderr and "run 2 of 2 drawn: " in result.stderr
@@ -262,7 +164,7 @@ def test_editions_cautions_and_guidance_for_the_reader(report) -> None:  # type:
 
 def test_plots_are_present(report) -> None:  # type: ignore[no-untyped-def]
     body = text(report)
-    assert "Figure 1. water-8@ip-verification-1: lowest_point_depth over the run" in body
+    assert "Figure 1. water-8@ip-verification-1: lowest point depth over the run" in body
     assert "Campaign calendar" in body
     pdf, pages, reader = report
     figure_page = next(i for i, p in enumerate(pages) if "Figure 1." in p)
@@ -294,3 +196,140 @@ def test_letter_paper_and_bad_options(report, tmp_path: Path) -> None:  # type: 
     assert b.fail("report", "QC-2027-014", "-o", str(tmp_path / "r.txt")).endswith(
         "--output: the report file must end in .pdf"
     )
+
+
+@pytest.mark.parametrize(
+    "needle",
+    [
+        # Every field of every observation, with its unit (tests/report/conftest.py SHEET).
+        "where: drop under the lid seal at the cable entry",
+        "live parts: clear",
+        "how much: about 0.2 mL",
+        "before: 412.35 g; after: 412.61 g; change: +0.26 g",
+        "start pressure: 1200 mbar; end pressure: 1199.8 mbar; duration: 600 s",
+        "start temperature: 21.4 °C; end temperature: 21.4 °C",
+        "barometric pressure: 1012 mbar; dead volume: 0.045 L; gauge: PG-01",
+        "resistance: 2100 MΩ; test voltage: 500 V; meter: IR-04",
+        "operator's note lid screws re-torqued by the client before delivery",
+        "torque checkpoint cycles: 0; value: 26 N·mm",
+        "torque checkpoint cycles: 54000; value: 24.5 N·mm",
+        "failure cycles: 41000; description: detent spring cracked",
+    ],
+)
+def test_every_observation_field_is_printed(report, needle: str) -> None:  # type: ignore[no-untyped-def]
+    assert needle in text(report)
+
+
+def test_instruments_whose_reading_enters_a_verdict_are_listed(report) -> None:  # type: ignore[no-untyped-def]
+    # The leak gauge and the insulation tester are named only in the observations; their
+    # calibration and U are what the leak and insulation verdicts use.
+    body = text(report)
+    assert "PG-01: test_pressure sensor test_pressure VC-PG-01, Gellimoor Calibration Ltd" in body
+    assert "0.05 mbar (k = 2) 800 to 1600 mbar" in body
+    assert "IR-04: insulation_resistance sensor insulation_resistance VC-IR-04" in body
+    assert "20 MΩ (k = 2) 1 to 10000 MΩ" in body
+
+
+def test_each_caution_and_disclaimer_is_printed_once(report, tmp_path: Path) -> None:  # type: ignore[no-untyped-def]
+    import json
+
+    body = text(report)
+    folder = report[0].parent.parent
+    b = Bench(f"sqlite:///{folder / 'lab.db'}", folder)
+    plan = json.loads(b.sql("SELECT plan_json FROM plan_revision")[0][0])
+    used = {"water-8", "endurance-mode-selector-knob"}
+    lines = {c for p in plan["procedures"] if p["id"] in used for c in p["cautions"]}
+    assert len(lines) >= 4
+    for line in lines:
+        assert body.count(" ".join(line.split())[:60]) == 1, line
+    for once in (
+        "take precedence over any value or wording here",
+        "The laboratory is not responsible for it",
+        "shall not be reproduced except in full",
+        "The results in this report relate only to the items tested",
+    ):
+        assert body.count(once) == 1, once
+
+
+def test_no_stray_punctuation_or_doubled_words(report) -> None:  # type: ignore[no-untyped-def]
+    body = text(report)
+    assert not re.search(r"\(\s*\)|\):\.|:\.|\.\.(?!\.)|;;|, ,|; ;", body)
+    assert "Interpretation. Interpretation" not in body
+    assert not re.search(r"cl\. (Table|table|test method|method|Annex)", body)
+    # A word printed twice in a row within one paragraph, cell, heading or caption (the
+    # PDF's text runs cells together, so the HTML that was printed is read element by element).
+    for piece in printed_texts(report[0].parent.parent / "report.html"):
+        assert not re.search(r"\b([A-Za-z]{2,})[.,:]? \1\b", piece, flags=re.IGNORECASE), piece
+
+
+def printed_texts(html: Path) -> list[str]:
+    """The text of each paragraph, table cell, list item, heading and caption of a page."""
+    from html.parser import HTMLParser
+
+    blocks = {"p", "td", "th", "li", "h1", "h2", "h3", "figcaption"}
+    out: list[str] = []
+
+    class Reader(HTMLParser):
+        def __init__(self) -> None:
+            super().__init__()
+            self.open: list[list[str]] = []
+
+        def handle_starttag(self, tag: str, attrs: object) -> None:
+            if tag in blocks:
+                self.open.append([])
+
+        def handle_endtag(self, tag: str) -> None:
+            if tag in blocks and self.open:
+                out.append(" ".join("".join(self.open.pop()).split()))
+
+        def handle_data(self, data: str) -> None:
+            if self.open:
+                self.open[-1].append(data)
+
+    Reader().feed(html.read_text())
+    assert len(out) > 100
+    return out
+
+
+def test_a_serial_is_never_broken_across_lines(report) -> None:  # type: ignore[no-untyped-def]
+    # Extracted line by line (not joined): a serial split at its hyphen would end a line
+    # with "QC-2027-014-" and start the next with "S01".
+    reader = report[2]
+    for page in reader.pages:
+        for line in page.extract_text().splitlines():
+            assert not re.search(r"QC-2027-014-\s*$", line), line
+            assert not re.search(r"^S0\d\b", line.strip()), line
+    assert "QC-2027-014- S0" not in text(report)
+
+
+def test_the_calendar_is_the_one_carried_out_with_each_run_labelled(report) -> None:  # type: ignore[no-untyped-def]
+    pages = report[1]
+    page = next(p for p in pages if "Calendar as carried out:" in p)
+    # Each run started is a labelled bar, from its recorded start (the rig at 11:00 UTC).
+    for key in (RUN, KNOB):
+        assert key in page
+    assert "time from the first start, 2027-01-12 11:00 UTC (d)" in page
+    assert "3.75 d" in page  # the rig ran 2027-01-12 11:00 to 2027-01-16 05:05
+    assert "Calendar as planned (for comparison; not the dates of test)" in text(report)
+
+
+def test_the_context_as_data_carries_no_image_payloads(report) -> None:  # type: ignore[no-untyped-def]
+    import datetime as dt
+    import json
+
+    from testplan.report.context import build
+    from testplan.report.pdf import context_json
+    from testplan.store.engine import open_store
+    from testplan.store.reporting import load_report
+
+    store = open_store(f"sqlite:///{report[0].parent.parent / 'lab.db'}")
+    try:
+        with store.reading() as session:
+            data = load_report(session, "QC-2027-014")
+    finally:
+        store.dispose()
+    ctx = build(data, issue_date=dt.date(2027, 2, 1), paper="A4")
+    assert ctx.as_run_svg and ctx.calendar_svg and ctx.runs[1].figures
+    plain = json.dumps(context_json(ctx))
+    assert "<svg" not in plain and "data:image" not in plain
+    assert "where: drop under the lid seal at the cable entry" in plain

@@ -1,0 +1,28 @@
+"""Units in printed text as SI typography writes them."""
+
+from __future__ import annotations
+
+import pytest
+
+from testplan.report.typography import si_text
+
+
+@pytest.mark.parametrize(
+    ("ascii_text", "printed"),
+    [
+        # source: SI Brochure, 9th edition (BIPM), unit symbols and their products and
+        # powers; a space between the number and the unit (from memory)
+        ("21.4 degC", "21.4 °C"),
+        ("26 N*mm", "26 N·mm"),
+        ("2.5 N*m", "2.5 N·m"),
+        ("2100 Mohm to 2 Gohm, 10 kohm, 5 ohm", "2100 MΩ to 2 GΩ, 10 kΩ, 5 Ω"),
+        ("0.05 m^3", "0.05 m³"),
+        ("1.38 ml/80cm^2/h", "1.38 ml/80 cm²/h"),
+        ("2 m^2", "2 m²"),
+        ("cm^2 per m^2", "cm² per m²"),
+        # Not units: left alone.
+        ("degCelsius, 2^3 and x^2y", "degCelsius, 2^3 and x^2y"),
+    ],
+)
+def test_units_are_written_the_si_way(ascii_text: str, printed: str) -> None:
+    assert si_text(ascii_text) == printed
