@@ -284,6 +284,7 @@ class _Body:
         if chunk_rows < 1:
             raise ValueError("chunk_rows must be at least 1")
         self.source, self.name, self.opt, self.chunk_rows = source, name, opt, chunk_rows
+        _ = source.sha256  # hashed before it is parsed: the store checks the bytes it keeps
         layout = opt.layout
         if layout not in ("auto", "long", "wide"):
             raise LoggerFileError(

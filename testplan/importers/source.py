@@ -23,7 +23,8 @@ class RawSource:
         if (path is None) == (data is None):
             raise ValueError("give a path or the bytes")
         self.path, self.data = path, data
-        self.size = len(data) if data is not None else path.stat().st_size  # type: ignore[union-attr]
+        self._stat = None if path is None else _stamp(path)
+        self.size = len(data) if data is not None else self._stat[0]  # type: ignore[index]
         self._sha256: str | None = None
 
     def open(self) -> IO[bytes]:
@@ -67,6 +68,37 @@ class RawSource:
             self._sha256 = h.hexdigest()
         return self._sha256
 
+    def verified_pieces(self, size: int = PIECE) -> Iterator[bytes]:
+        """``pieces``, then a check that they are the bytes first hashed: a file changed on
+        disk while it was being read and stored raises LoggerFileError (nothing is kept)."""
+        expected = self.sha256
+        self._check(True)
+        h = hashlib.sha256()
+        total = 0
+        for piece in self.pieces(size):
+            total += len(piece)
+            self._check(total <= self.size)
+            h.update(piece)
+            yield piece
+        self._check(total == self.size and h.hexdigest() == expected)
+
+    def verified(self) -> bytes:
+        """``read``, checked as ``verified_pieces`` checks."""
+        expected = self.sha256
+        content = self.read()
+        self._check(hashlib.sha256(content).hexdigest() == expected)
+        return content
+
+    def _check(self, same: bool) -> None:
+        if not same or (self.path is not None and _stamp(self.path) != self._stat):
+            from testplan.errors import LoggerFileError
+
+            raise LoggerFileError(
+                "the file changed while it was being imported; nothing was kept",
+                file=self.path,
+                fix="import it again once the logger has finished writing it",
+            )
+
     def find(self, needle: bytes) -> bool:
         """Whether ``needle`` occurs anywhere (across piece boundaries too)."""
         tail = b""
@@ -75,3 +107,8 @@ class RawSource:
                 return True
             tail = piece[-(len(needle) - 1) :] if len(needle) > 1 else b""
         return False
+
+
+def _stamp(path: Path) -> tuple[int, int]:
+    st = path.stat()
+    return st.st_size, st.st_mtime_ns

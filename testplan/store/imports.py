@@ -103,7 +103,9 @@ def import_logger_data(
         sha256=data.sha256,
         size=data.source.size,
         # SQLite copies a bound blob twice over; the bytes are streamed in below instead
-        content=cast(bytes, sa.func.zeroblob(data.source.size)) if sqlite else data.content,
+        content=cast(bytes, sa.func.zeroblob(data.source.size))
+        if sqlite
+        else data.source.verified(),
         layout=data.layout,
         timezone=data.timezone,
         read_options_json=audit.canonical({**options, "dialect": data.dialect}),
@@ -166,7 +168,7 @@ def _write_content_sqlite(session: Session, raw: RawFile, source: RawSource) -> 
     dbapi = session.connection().connection.dbapi_connection
     assert dbapi is not None
     with dbapi.blobopen("raw_file", "content", rowid) as blob:
-        for piece in source.pieces():
+        for piece in source.verified_pieces():
             blob.write(piece)
     # ``raw.content`` stays expired (it was an SQL expression): loaded only if read
 

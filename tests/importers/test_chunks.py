@@ -217,3 +217,27 @@ def test_the_raw_bytes_hash_is_the_file_s_own(tmp_path: Path) -> None:
     assert data.content == path.read_bytes()
     assert data.sha256 == hashlib.sha256(path.read_bytes()).hexdigest()
     assert data.count == 30
+
+
+def test_a_bad_byte_past_the_first_megabyte_is_named_by_its_line(tmp_path: Path) -> None:
+    from testplan.errors import LoggerFileError
+
+    rows = 60_000  # about 1.6 MB: the bad byte is in the second piece read
+    lines = [f"2027-01-12T16:05:00Z,{i}" for i in range(rows)]
+    path = tmp_path / "log.csv"
+    path.write_bytes(("time,level\n" + "\n".join(lines) + "\n").encode() + b"x\xb0,1\n")
+    with pytest.raises(LoggerFileError) as err:
+        logger_csv.read_logger_file(
+            path,
+            [logger_csv.parse_map("level[cm]=lowest_point_depth")],
+            logger_csv.ReadOptions(encoding="utf-8"),
+        )
+    assert (err.value.line, err.value.message) == (rows + 2, "byte 0xb0 is not valid utf-8")
+
+
+def test_a_24_00_split_across_pieces_is_still_found(tmp_path: Path) -> None:
+    from testplan.importers.source import PIECE, RawSource
+
+    data = b"x" * (PIECE - 2) + b"24:00"
+    assert RawSource(data=data).find(b"24:00")
+    assert not RawSource(data=data[:-1]).find(b"24:00")

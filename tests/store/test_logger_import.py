@@ -545,3 +545,27 @@ def test_an_error_on_the_last_line_of_a_many_chunk_file_stores_nothing(
     )
     assert running.sql("SELECT count(*) FROM raw_file") == [(0,)]
     assert running.sample_count() == 0
+
+
+def test_a_file_changed_while_being_imported_is_refused_and_nothing_kept(
+    running: Bench, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    from testplan.importers import logger_csv
+
+    path = running.write("growing.csv", "time,level\n" + "\n".join(_long_run(20)) + "\n")
+    real = logger_csv.read_logger_file
+
+    def then_the_logger_writes_on(*args: object, **kwargs: object) -> logger_csv.LoggerData:
+        data = real(*args, **kwargs)  # type: ignore[arg-type]
+        with path.open("a") as f:
+            f.write(f"{_stamp(20)},209.9\n")
+        return data
+
+    monkeypatch.setattr(logger_csv, "read_logger_file", then_the_logger_writes_on)
+    line = running.fail("record", "import", RUN, str(path), "--map", LEVEL, "--by", "AK")
+    assert line == (
+        f"error: {path}: the file changed while it was being imported; nothing was kept "
+        "(import it again once the logger has finished writing it)"
+    )
+    assert running.sql("SELECT count(*) FROM raw_file") == [(0,)]
+    assert running.sample_count() == 0
