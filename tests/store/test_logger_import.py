@@ -569,3 +569,14 @@ def test_a_file_changed_while_being_imported_is_refused_and_nothing_kept(
     )
     assert running.sql("SELECT count(*) FROM raw_file") == [(0,)]
     assert running.sample_count() == 0
+
+
+def test_on_sqlite_the_raw_bytes_are_the_last_column_so_they_stream_in(running: Bench) -> None:
+    if not running.url.startswith("sqlite"):
+        pytest.skip("a SQLite row layout")
+    columns = [row[1] for row in running.sql("PRAGMA table_info(raw_file)")]
+    assert columns[-1] == "content"
+    assert len(columns) == len(set(columns))
+    path = DATA / "tank-long.csv"
+    running("record", "import", RUN, str(path), "--map", LEVEL, "--map", WATER, "--by", "AK")
+    assert running.sql("SELECT content FROM raw_file") == [(path.read_bytes(),)]
