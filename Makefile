@@ -28,7 +28,7 @@ test: lint
 
 # Benchmarks (on demand; each prints testplan's time against a baseline run beside it).
 bench: $(STAMP)
-	@status=0; for b in startup import_sqlite import_postgres judge manifest report; do \
+	@status=0; for b in startup import_sqlite import_large import_postgres judge manifest report; do \
 		$(BIN)/python bench/$$b.py || status=1; done; exit $$status
 
 # Regenerate constraints.txt from a venv that just passed `make test`.

@@ -66,6 +66,20 @@ def report(
     return ok
 
 
+# The baselines' store: one row per sample, written by sqlite3 executemany in one
+# transaction (after the script has set df, codes, t and con).
+SQLITE_EXECUTEMANY = """
+rid = uuid.uuid4().hex
+con.execute("CREATE TABLE IF NOT EXISTS sample (raw_file_id CHAR(32), seq BIGINT, channel INT, "
+            "t_us BIGINT, value FLOAT, PRIMARY KEY (raw_file_id, seq))")
+with con:
+    con.executemany("INSERT INTO sample VALUES (?, ?, ?, ?, ?)",
+                    zip([rid] * len(df), range(len(df)), codes.tolist(), t.tolist(),
+                        df["value"].tolist()))
+con.close()
+"""
+
+
 def py(code: str) -> list[str]:
     return [sys.executable, "-c", code]
 

@@ -8,9 +8,18 @@ import sys
 import tempfile
 from pathlib import Path
 
-from common import bench_store, import_cmd, long_csv, median_of, report, run_timed
+from common import (
+    SQLITE_EXECUTEMANY,
+    bench_store,
+    import_cmd,
+    long_csv,
+    median_of,
+    report,
+    run_timed,
+)
 
-BASELINE = """
+BASELINE = (
+    """
 import hashlib, sqlite3, sys, uuid
 import pandas as pd
 path, db = sys.argv[1:]
@@ -18,16 +27,10 @@ hashlib.sha256(open(path, "rb").read()).hexdigest()
 df = pd.read_csv(path)
 t = pd.to_datetime(df["time"], format="ISO8601", utc=True).astype("int64") // 1000
 codes = df["channel"].astype("category").cat.codes
-rid = uuid.uuid4().hex
 con = sqlite3.connect(db)
-con.execute("CREATE TABLE IF NOT EXISTS sample (raw_file_id CHAR(32), seq BIGINT, channel INT, "
-            "t_us BIGINT, value FLOAT, PRIMARY KEY (raw_file_id, seq))")
-with con:
-    con.executemany("INSERT INTO sample VALUES (?, ?, ?, ?, ?)",
-                    zip([rid] * len(df), range(len(df)), codes.tolist(), t.tolist(),
-                        df["value"].tolist()))
-con.close()
 """
+    + SQLITE_EXECUTEMANY
+)
 
 
 def main() -> int:

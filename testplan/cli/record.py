@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING, Annotated, Any
 
@@ -93,6 +94,50 @@ READ_KEYS = (
     "tz", "layout", "time_column", "channel_column", "value_column", "delimiter", "decimal",
     "encoding", "skip_lines", "skip_unmapped", "missing", "date_order", "time_format", "start",
 )  # fmt: skip
+# Where a command takes the options above: reads_logger_files puts them there and hands
+# the command one ReadOptions.
+ReadingOptions = Any
+
+
+def _logger_reading(
+    tz: TzRead = None,
+    layout: LayoutRead = "auto",
+    time_column: TimeColumnRead = None,
+    channel_column: ChannelColumnRead = "channel",
+    value_column: ValueColumnRead = "value",
+    delimiter: DelimiterRead = "auto",
+    decimal: DecimalRead = "auto",
+    encoding: EncodingRead = "auto",
+    skip_lines: SkipLinesRead = None,
+    skip_unmapped: SkipUnmappedRead = False,
+    missing: MissingRead = None,
+    date_order: DateOrderRead = None,
+    time_format: TimeFormatRead = None,
+    start: StartRead = None,
+) -> None:
+    """The logger-reading options of `record import` and `record preview`, in help order."""
+
+
+def reads_logger_files(command: Callable[..., None]) -> Callable[..., None]:
+    """Give a command the logger-reading options in place of its ``options`` parameter;
+    it is called with them as one ``ReadOptions`` (one definition for both commands)."""
+    import functools
+    import inspect
+
+    shared = inspect.signature(_logger_reading, eval_str=True).parameters
+    own = inspect.signature(command, eval_str=True)
+    params: list[inspect.Parameter] = []
+    for p in own.parameters.values():
+        params.extend(shared.values() if p.name == "options" else [p])
+
+    @functools.wraps(command)
+    def wrapper(**kwargs: Any) -> None:
+        given = {k: kwargs.pop(k) for k in READ_KEYS}
+        command(**kwargs, options=_read_options(given))
+
+    wrapper.__signature__ = own.replace(parameters=params)  # type: ignore[attr-defined]
+    wrapper.__annotations__ = {p.name: p.annotation for p in params}
+    return wrapper
 
 
 def _read_options(params: dict[str, Any]) -> Any:
@@ -333,6 +378,7 @@ def deviation_command(
 
 @app.command("import", epilog="Quantities (plan unit): " + CHANNEL_LIST)
 @reports_errors
+@reads_logger_files
 def import_command(
     run: RunArg,
     file: Annotated[Path, typer.Argument(help="Logger CSV file, long or wide.")],
@@ -345,20 +391,7 @@ def import_command(
             help="keep or drop readings before the run's start or after its finish.",
         ),
     ] = None,
-    tz: TzRead = None,
-    layout: LayoutRead = "auto",
-    time_column: TimeColumnRead = None,
-    channel_column: ChannelColumnRead = "channel",
-    value_column: ValueColumnRead = "value",
-    delimiter: DelimiterRead = "auto",
-    decimal: DecimalRead = "auto",
-    encoding: EncodingRead = "auto",
-    skip_lines: SkipLinesRead = None,
-    skip_unmapped: SkipUnmappedRead = False,
-    missing: MissingRead = None,
-    date_order: DateOrderRead = None,
-    time_format: TimeFormatRead = None,
-    start: StartRead = None,
+    options: ReadingOptions = None,
     campaign: CampaignOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
@@ -371,7 +404,6 @@ def import_command(
     """
     from testplan.importers.logger_csv import parse_map, read_logger_file
 
-    options = _read_options(locals())
     data = read_logger_file(file, [parse_map(m) for m in map_], options)
     from testplan.store import imports, records
 
@@ -422,23 +454,11 @@ def withdraw_command(
 
 @app.command("preview", epilog="Quantities (plan unit): " + CHANNEL_LIST)
 @reports_errors
+@reads_logger_files
 def preview_command(
     file: Annotated[Path, typer.Argument(help="Logger CSV file, long or wide.")],
     map_: MapOption,
-    tz: TzRead = None,
-    layout: LayoutRead = "auto",
-    time_column: TimeColumnRead = None,
-    channel_column: ChannelColumnRead = "channel",
-    value_column: ValueColumnRead = "value",
-    delimiter: DelimiterRead = "auto",
-    decimal: DecimalRead = "auto",
-    encoding: EncodingRead = "auto",
-    skip_lines: SkipLinesRead = None,
-    skip_unmapped: SkipUnmappedRead = False,
-    missing: MissingRead = None,
-    date_order: DateOrderRead = None,
-    time_format: TimeFormatRead = None,
-    start: StartRead = None,
+    options: ReadingOptions = None,
     json_out: Annotated[bool, typer.Option("--json", help="Print JSON.")] = False,
 ) -> None:
     """Read a logger file exactly as `record import` would and show what was found; stores nothing.
@@ -449,7 +469,6 @@ def preview_command(
 
     from testplan.importers.logger_csv import parse_map, preview, read_logger_file
 
-    options = _read_options(locals())
     data = read_logger_file(file, [parse_map(m) for m in map_], options)
     shown = preview(data)
     if json_out:

@@ -13,6 +13,7 @@ from collections import Counter
 from dataclasses import dataclass
 
 from testplan.errors import LoggerFileError
+from testplan.importers.source import RawSource
 
 DELIMITER_WORDS = {"tab": "\t", "\\t": "\t", "comma": ",", "semicolon": ";", "space": " "}
 MISSING_MARKERS = ("", "NA", "NaN", "NAN", "nan", "-", "---", "N/A")
@@ -52,41 +53,73 @@ def delimiter_option(text: str) -> str | None:
     return word
 
 
-def decode(content: bytes, name: str, encoding: str) -> tuple[str, str]:
-    """The file's text with one line end, and the encoding used (found when ``auto``)."""
+def decode(
+    content: bytes | RawSource, name: str, encoding: str, limit: int | None = None
+) -> tuple[str, str]:
+    """The file's text with one line end, and the encoding used (found when ``auto``).
+
+    The whole file is checked to decode, a megabyte at a time; with ``limit`` only the text
+    of about the first ``limit`` bytes is returned, ending at a line end (the head that
+    detection reads), so a large file is never held whole as text.
+    """
+    source = content if isinstance(content, RawSource) else RawSource(data=content)
+    start = source.head(3)
     if encoding == "auto":
-        if content.startswith((b"\xff\xfe", b"\xfe\xff")):
+        if start.startswith((b"\xff\xfe", b"\xfe\xff")):
             encoding = "utf-16"
-        elif content.startswith(b"\xef\xbb\xbf"):
+        elif start.startswith(b"\xef\xbb\xbf"):
             encoding = "utf-8-sig"
         else:
-            try:
-                content.decode("utf-8")
-                encoding = "utf-8"
-            except UnicodeDecodeError:
-                encoding = "cp1252"
-                try:
-                    content.decode("cp1252")
-                except UnicodeDecodeError:
-                    encoding = "latin-1"
+            encoding = "utf-8"
+            if _bad_byte(source, "utf-8") is not None:
+                encoding = "cp1252" if _bad_byte(source, "cp1252") is None else "latin-1"
     try:
-        text = content.decode(encoding)
+        bad = _bad_byte(source, encoding)
     except LookupError:
         raise LoggerFileError(f"unknown encoding {encoding!r}", key="--encoding") from None
-    except UnicodeDecodeError as err:
-        line = content[: err.start].count(b"\n") + 1
+    if bad is not None:
+        byte, line = bad
         raise LoggerFileError(
-            f"byte {content[err.start]:#04x} is not valid {encoding}",
+            f"byte {byte:#04x} is not valid {encoding}",
             file=name,
             line=line,
             fix="give the file's encoding with --encoding, e.g. cp1252",
-        ) from None
+        )
+    if limit is None or source.size <= limit:
+        text = source.read().decode(encoding)
+    else:
+        import codecs
+
+        text = codecs.getincrementaldecoder(encoding)().decode(source.head(limit))
+        text = text[: text.rfind("\n") + 1] if "\n" in text else text
     text = text.removeprefix("\ufeff")
     if "\r" in text:
         # One line end for every reader here, so line numbers in messages agree with
         # the parser's (the stored bytes are kept as received).
         text = text.replace("\r\n", "\n").replace("\r", "\n")
     return text, encoding
+
+
+def _bad_byte(source: RawSource, encoding: str) -> tuple[int, int] | None:
+    """The first byte that does not decode and its line, or None; decoded a megabyte at a
+    time so that checking a large file never holds its whole text."""
+    import codecs
+
+    decoder = codecs.getincrementaldecoder(encoding)()
+    lines = 1
+    done = 0
+    for piece in source.pieces():
+        held = decoder.getstate()[0]
+        try:
+            decoder.decode(piece, final=done + len(piece) >= source.size)
+        except UnicodeDecodeError as err:
+            joined = held + piece
+            return joined[err.start], lines + joined.count(b"\n", 0, err.start) - held.count(b"\n")
+        lines += piece.count(b"\n")
+        done += len(piece)
+    if done == 0:
+        decoder.decode(b"", final=True)
+    return None
 
 
 def _fields(line: str, delimiter: str) -> list[str]:

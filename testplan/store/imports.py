@@ -8,8 +8,9 @@ from __future__ import annotations
 
 import datetime as dt
 from collections.abc import Callable
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any, cast
 
+import sqlalchemy as sa
 from sqlmodel import Session, col, select
 
 from testplan import __version__
@@ -21,6 +22,7 @@ from testplan.store.tables import Calibration, LoggerChannel, RawFile, RunEquipm
 
 if TYPE_CHECKING:  # pragma: no cover
     from testplan.importers.logger_csv import LoggerData
+    from testplan.importers.source import RawSource
 
 
 def import_logger_data(
@@ -37,9 +39,7 @@ def import_logger_data(
     Readings before the run's start or after its finish are refused unless ``outside_run``
     is ``keep`` or ``drop``; the count and the choice go on the record.
     """
-    from dataclasses import replace
-
-    from testplan.store.samples import digest_arrays, insert_samples
+    from testplan.store.samples import digest_source, insert_source
 
     _open(session, run.campaign_id)
     _state(run, ("running", "finished"), "import data into")
@@ -91,27 +91,35 @@ def import_logger_data(
             key="FILE",
             fix="the same bytes are stored once per run",
         )
-    outside, data = _outside_run(run, data, outside_run)
-    data = replace(data, options={**data.options, "outside_run": outside})
-    first = dt.datetime.fromtimestamp(int(data.t_us.min()) / 1e6, dt.UTC)
-    last = dt.datetime.fromtimestamp(int(data.t_us.max()) / 1e6, dt.UTC)
+    outside, samples = _outside_run(run, data, outside_run)
+    options = {**data.options, "outside_run": outside}
+    assert samples.t_min is not None and samples.t_max is not None
+    first = dt.datetime.fromtimestamp(samples.t_min / 1e6, dt.UTC)
+    last = dt.datetime.fromtimestamp(samples.t_max / 1e6, dt.UTC)
+    sqlite = session.get_bind().dialect.name == "sqlite"
     raw = RawFile(
         run_id=run.id,
         name=data.name,
         sha256=data.sha256,
-        size=len(data.content),
-        content=data.content,
+        size=data.source.size,
+        # SQLite copies a bound blob twice over; the bytes are streamed in below instead
+        content=cast(bytes, sa.func.zeroblob(data.source.size))
+        if sqlite
+        else data.source.verified(),
         layout=data.layout,
         timezone=data.timezone,
-        read_options_json=audit.canonical({**data.options, "dialect": data.dialect}),
+        read_options_json=audit.canonical({**options, "dialect": data.dialect}),
         tool_version=__version__,
         operator_id=operator.id,
-        samples=data.count,
+        samples=samples.count,
         first_at=first,
         last_at=last,
-        samples_sha256=digest_arrays(data.t_us, data.channel, data.value),
+        samples_sha256=digest_source(samples),
     )
     session.add(raw)
+    session.flush()
+    if sqlite:
+        _write_content_sqlite(session, raw, data.source)
     session.flush()
     for number, m, equipment_id, calibration_id, specimen_id in channel_rows:
         session.add(
@@ -130,7 +138,7 @@ def import_logger_data(
             )
         )
     session.flush()
-    insert_samples(session, raw.id, data.t_us, data.channel, data.value, progress=progress)
+    insert_source(session, raw.id, samples, progress=progress)
     audit.append(
         session,
         actor=operator.initials,
@@ -151,20 +159,45 @@ def import_logger_data(
     return raw
 
 
+def _write_content_sqlite(session: Session, raw: RawFile, source: RawSource) -> None:
+    """Fill the raw file's zeroblob a megabyte at a time from the file, on the unit's own
+    connection, so the file's bytes are never held whole here."""
+    table: sa.Table = RawFile.__table__  # type: ignore[attr-defined]
+    query = sa.select(sa.literal_column("rowid", sa.Integer)).where(table.c.id == raw.id)
+    rowid: int = session.connection().execute(query).scalar_one()
+    dbapi = session.connection().connection.dbapi_connection
+    assert dbapi is not None
+    with dbapi.blobopen("raw_file", "content", rowid) as blob:
+        for piece in source.verified_pieces():
+            blob.write(piece)
+    # ``raw.content`` stays expired (it was an SQL expression): loaded only if read
+
+
 def _outside_run(
     run: RunRecord, data: LoggerData, how: str | None
-) -> tuple[dict[str, object], LoggerData]:
-    from dataclasses import replace
-
+) -> tuple[dict[str, object], Any]:
     if how not in (None, "keep", "drop"):
         raise RecordError(f"unknown choice {how!r}", key="--outside-run", fix="keep or drop")
-    t = data.t_us
-    mask = t < 0 if run.started_at is None else t < int(run.started_at.timestamp() * 1e6)
-    if run.finished_at is not None:
-        mask |= t > int(run.finished_at.timestamp() * 1e6)
-    count = int(mask.sum())
+    samples = data.samples
+    lo = 0 if run.started_at is None else int(run.started_at.timestamp() * 1e6)
+    hi = None if run.finished_at is None else int(run.finished_at.timestamp() * 1e6)
+
+    def outside(t: Any) -> Any:
+        mask = t < lo
+        if hi is not None:
+            mask |= t > hi
+        return mask
+
+    count, first_at = 0, None
+    for t, _, _ in samples.slices(1 << 20):
+        mask = outside(t)
+        n = int(mask.sum())
+        if n and first_at is None:
+            first_at = int(t[mask.argmax()])
+        count += n
     if count and how is None:
-        at = dt.datetime.fromtimestamp(int(t[mask.argmax()]) / 1e6, dt.UTC)
+        assert first_at is not None
+        at = dt.datetime.fromtimestamp(first_at / 1e6, dt.UTC)
         end = f" to {run.finished_at:%Y-%m-%d %H:%M:%SZ}" if run.finished_at else ""
         raise RecordError(
             f"{data.name}: {count} readings lie outside run {run.key} "
@@ -173,13 +206,12 @@ def _outside_run(
             fix="say --outside-run keep or --outside-run drop",
         )
     if count and how == "drop":
-        if count == len(t):
+        if count == samples.count:
             raise RecordError(
                 f"{data.name}: every reading lies outside run {run.key}", key="--outside-run"
             )
-        keep = ~mask
-        data = replace(data, t_us=t[keep], channel=data.channel[keep], value=data.value[keep])
-    return {"how": how, "count": count}, data
+        samples = samples.filtered(lambda t: ~outside(t))
+    return {"how": how, "count": count}, samples
 
 
 def withdraw_import(

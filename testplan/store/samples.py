@@ -16,9 +16,9 @@ from __future__ import annotations
 
 import hashlib
 import uuid
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Any, cast
+from typing import TYPE_CHECKING, Any, Protocol, cast
 
 import sqlalchemy as sa
 from sqlmodel import Session
@@ -70,6 +70,48 @@ def _table() -> sa.Table:
     return SQLModel.metadata.tables["sample_block"]
 
 
+class SampleSource(Protocol):
+    """Samples held outside memory (``importers.spool.SampleSpool``): a count, one column's
+    bytes piece by piece, and consecutive slices."""
+
+    count: int
+
+    def pieces(self, name: str) -> Iterator[bytes]: ...
+
+    def slices(self, size: int) -> Iterator[tuple[Any, Any, Any]]: ...
+
+
+def digest_source(samples: SampleSource) -> str:
+    """``digest_arrays`` of all the samples, read piece by piece (the same bytes in the
+    same order: every time stamp, then every channel number, then every value)."""
+    h = hashlib.sha256()
+    for name in ("t_us", "channel", "value"):
+        for piece in samples.pieces(name):
+            h.update(piece)
+    return h.hexdigest()
+
+
+def block_row(
+    raw_file_id: uuid.UUID,
+    block: int,
+    first_seq: int,
+    t: npt.NDArray[np.int64],
+    c: npt.NDArray[np.int32],
+    v: npt.NDArray[np.float64],
+) -> dict[str, object]:
+    """One block row: its arrays in the fixed layout and their SHA-256."""
+    return {
+        "raw_file_id": raw_file_id,
+        "block": block,
+        "first_seq": first_seq,
+        "n": len(t),
+        "t_us": t.astype("<i8").tobytes(),
+        "channel": c.astype("<i4").tobytes(),
+        "value": v.astype("<f8").tobytes(),
+        "sha256": digest_arrays(t, c, v),
+    }
+
+
 def block_rows(
     raw_file_id: uuid.UUID,
     t_us: npt.NDArray[np.int64],
@@ -82,19 +124,25 @@ def block_rows(
     for start in range(0, len(t_us), BLOCK):
         stop = min(start + BLOCK, len(t_us))
         t, c, v = t_us[start:stop], channel[start:stop], value[start:stop]
-        rows.append(
-            {
-                "raw_file_id": raw_file_id,
-                "block": first_block + start // BLOCK,
-                "first_seq": start,
-                "n": stop - start,
-                "t_us": t.astype("<i8").tobytes(),
-                "channel": c.astype("<i4").tobytes(),
-                "value": v.astype("<f8").tobytes(),
-                "sha256": digest_arrays(t, c, v),
-            }
-        )
+        rows.append(block_row(raw_file_id, first_block + start // BLOCK, start, t, c, v))
     return rows
+
+
+def insert_source(
+    session: Session,
+    raw_file_id: uuid.UUID,
+    samples: SampleSource,
+    *,
+    progress: Callable[[int], None] | None = None,
+) -> None:
+    """Write samples held outside memory as blocks, one block in memory at a time; the
+    same rows ``insert_samples`` writes for the same samples."""
+    conn = session.connection()
+    table = _table()
+    for block, (t, c, v) in enumerate(samples.slices(BLOCK)):
+        conn.execute(table.insert(), [block_row(raw_file_id, block, block * BLOCK, t, c, v)])
+        if progress is not None:
+            progress(len(t))
 
 
 def insert_samples(

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import datetime as dt
 import hashlib
 import json
 from pathlib import Path
@@ -488,3 +489,94 @@ def test_readings_outside_the_run_are_refused_unless_kept_or_dropped(running: Be
     [(content, options_json)] = running.sql("SELECT content, read_options_json FROM raw_file")
     assert bytes(content) == path.read_bytes()
     assert json.loads(options_json)["outside_run"] == {"how": "drop", "count": 2}
+
+
+def _stamp(i: int) -> str:
+    return f"{dt.datetime.fromtimestamp(T0 / 1e6 + i, dt.UTC):%Y-%m-%dT%H:%M:%SZ}"
+
+
+def _long_run(rows: int) -> list[str]:
+    # one reading a second from the run's start, in cm: 200.0 + (i mod 50) / 10
+    return [f"{_stamp(i)},{200 + (i % 50) / 10:.1f}" for i in range(rows)]
+
+
+def test_a_file_read_in_many_chunks_is_stored_in_the_one_block_layout(
+    running: Bench, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    import numpy as np
+
+    from testplan.importers import logger_csv
+
+    rows = 70_000  # two blocks of 65,536 samples, read 997 rows at a time
+    path = running.write("many.csv", "time,level\n" + "\n".join(_long_run(rows)) + "\n")
+    monkeypatch.setattr(logger_csv, "CHUNK_ROWS", 997)
+    running("record", "import", RUN, str(path), "--map", LEVEL, "--by", "AK", "--quiet")
+    t = T0 + np.arange(rows, dtype="<i8") * 1_000_000
+    c = np.zeros(rows, dtype="<i4")
+    v = (2000 + (np.arange(rows) % 50)).astype("<f8")  # mm: x10 of the cm reading
+
+    def sha(start: int, stop: int) -> str:
+        h = hashlib.sha256()
+        for a in (t, c, v):
+            h.update(a[start:stop].tobytes())
+        return h.hexdigest()
+
+    assert running.sql("SELECT block, first_seq, n, sha256 FROM sample_block ORDER BY block") == [
+        (0, 0, 65_536, sha(0, 65_536)),
+        (1, 65_536, rows - 65_536, sha(65_536, rows)),
+    ]
+    assert running.sql("SELECT samples, samples_sha256 FROM raw_file") == [(rows, sha(0, rows))]
+    assert running("store", "check").exit_code == 0
+
+
+def test_an_error_on_the_last_line_of_a_many_chunk_file_stores_nothing(
+    running: Bench, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    from testplan.importers import logger_csv
+
+    lines = _long_run(70_000)
+    lines.append(f"{_stamp(69_998)},201.0")
+    path = running.write("many.csv", "time,level\n" + "\n".join(lines) + "\n")
+    monkeypatch.setattr(logger_csv, "CHUNK_ROWS", 1000)
+    line = running.fail("record", "import", RUN, str(path), "--map", LEVEL, "--by", "AK")
+    assert line == (
+        f"error: {path}:70002: time: time stamp goes back from the one on line 70001 (times "
+        "must rise; remove duplicated or out-of-order lines)"
+    )
+    assert running.sql("SELECT count(*) FROM raw_file") == [(0,)]
+    assert running.sample_count() == 0
+
+
+def test_a_file_changed_while_being_imported_is_refused_and_nothing_kept(
+    running: Bench, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    from testplan.importers import logger_csv
+
+    path = running.write("growing.csv", "time,level\n" + "\n".join(_long_run(20)) + "\n")
+    real = logger_csv.read_logger_file
+
+    def then_the_logger_writes_on(*args: object, **kwargs: object) -> logger_csv.LoggerData:
+        data = real(*args, **kwargs)  # type: ignore[arg-type]
+        with path.open("a") as f:
+            f.write(f"{_stamp(20)},209.9\n")
+        return data
+
+    monkeypatch.setattr(logger_csv, "read_logger_file", then_the_logger_writes_on)
+    line = running.fail("record", "import", RUN, str(path), "--map", LEVEL, "--by", "AK")
+    assert line == (
+        f"error: {path}: the file changed while it was being imported; nothing was kept "
+        "(import it again once the logger has finished writing it)"
+    )
+    assert running.sql("SELECT count(*) FROM raw_file") == [(0,)]
+    assert running.sample_count() == 0
+
+
+def test_on_sqlite_the_raw_bytes_are_the_last_column_so_they_stream_in(running: Bench) -> None:
+    if not running.url.startswith("sqlite"):
+        pytest.skip("a SQLite row layout")
+    columns = [row[1] for row in running.sql("PRAGMA table_info(raw_file)")]
+    assert columns[-1] == "content"
+    assert len(columns) == len(set(columns))
+    path = DATA / "tank-long.csv"
+    running("record", "import", RUN, str(path), "--map", LEVEL, "--map", WATER, "--by", "AK")
+    assert running.sql("SELECT content FROM raw_file") == [(path.read_bytes(),)]
