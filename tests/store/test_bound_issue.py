@@ -27,7 +27,7 @@ def judged(bench: Bench, monkeypatch: pytest.MonkeyPatch) -> Bench:
 def tamper(b: Bench, statement: str) -> bool:
     """Run ``statement`` behind the tool; False when PostgreSQL's lock refused it."""
     try:
-        b.raw(statement)
+        b.tamper(statement)
     except sa.exc.DBAPIError as err:
         assert b.url.startswith("postgresql"), err
         assert "locked" in str(err.orig), err
@@ -97,7 +97,7 @@ def test_raw_file_bytes_stored_as_text_are_named_not_a_crash(judged: Bench) -> N
     if judged.url.startswith("postgresql"):
         pytest.skip("a bytea column cannot hold text; SQLite columns take any type")
     pdf = approve_and_issue(judged)
-    judged.raw("UPDATE raw_file SET content = 'time,depth'")
+    judged.tamper("UPDATE raw_file SET content = 'time,depth'")
     found = problems(judged, pdf)
     assert any(p.startswith("raw file tank.csv of " + RUN + ": changed") for p in found), found
     result = judged("store", "check", ok=False)
