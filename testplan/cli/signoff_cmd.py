@@ -114,7 +114,7 @@ def verify_command(
     anchor = identity.parse_trust(_read(trust).decode("utf-8", "replace")) if trust else None
     content = _read(report)
     claims = read_claims(content, report)
-    store = open_for_reading(db)
+    store = open_for_reading(db, read_only=True)
     with store.reading() as session:
         result: Verification = signoff.verify(
             session,

@@ -77,7 +77,7 @@ def check_command(db: DbOption = None) -> None:
         check_raw_files,
     )
 
-    store = open_for_reading(db)
+    store = open_for_reading(db, read_only=True)
     with store.reading() as session:
         entries, chain = check_chain(session)
         files, raw = check_raw_files(session)
@@ -112,7 +112,7 @@ def info_command(
     from testplan.store.engine import current_revision
     from testplan.store.queries import count_rows
 
-    store = open_for_reading(db)
+    store = open_for_reading(db, read_only=True)
     with store.reading() as session:
         counts = count_rows(session)
     info = {
