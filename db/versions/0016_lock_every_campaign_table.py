@@ -11,7 +11,9 @@ and photos its runs used, and the person records of everyone who acted on it or 
 it (all columns but the current public key, which a new enrolment changes). An UPDATE is
 also refused when it would move a row into a locked campaign. The sign-off and identity
 records (manifest, signature, report_issue, amendment, person_key, role_grant,
-key_revocation, store_meta) are append-only.
+key_revocation, store_meta) are append-only, and so is the new ``template_set``: a lab's
+own report template set, registered once by a manager (its SHA-256, a name, the
+manager's signature).
 
 PostgreSQL had this lock for some tables since 0006; each table now has a trigger function
 of its own, written from the same rule as SQLite's triggers. SQLite gets the lock for the
@@ -21,6 +23,7 @@ database client, and `verify` / `store check` still find what changed.
 
 from __future__ import annotations
 
+import sqlalchemy as sa
 from alembic import op
 
 revision = "0016"
@@ -88,7 +91,7 @@ CAMPAIGNS = {
 UPDATE_OF = {"person": "id, initials, name, title, created_at"}
 APPEND_ONLY = (
     "manifest", "signature", "report_issue", "amendment", "person_key", "role_grant",
-    "key_revocation", "store_meta",
+    "key_revocation", "store_meta", "template_set",
 )  # fmt: skip
 # what 0014 left on PostgreSQL, restored by the downgrade
 OLD_LOCKED = (
@@ -159,9 +162,14 @@ def _postgres_upgrade() -> None:
             f'CREATE TRIGGER {table}_locked BEFORE UPDATE{of} OR DELETE ON "{table}" '
             f"FOR EACH ROW EXECUTE FUNCTION testplan_lock_{table}()"
         )
+    for table in ("store_meta", "template_set"):
+        op.execute(
+            f"CREATE TRIGGER {table}_append_only BEFORE UPDATE OR DELETE ON {table} "
+            "FOR EACH ROW EXECUTE FUNCTION testplan_append_only()"
+        )
     op.execute(
-        "CREATE TRIGGER store_meta_append_only BEFORE UPDATE OR DELETE ON store_meta "
-        "FOR EACH ROW EXECUTE FUNCTION testplan_append_only()"
+        "CREATE TRIGGER template_set_no_truncate BEFORE TRUNCATE ON template_set "
+        "FOR EACH STATEMENT EXECUTE FUNCTION testplan_refuse_truncate()"
     )
 
 
@@ -178,6 +186,20 @@ def _postgres_downgrade() -> None:
 
 
 def upgrade() -> None:
+    op.create_table(
+        "template_set",
+        sa.Column("id", sa.Uuid(), nullable=False),
+        sa.Column("sha256", sa.String(length=64), nullable=False),
+        sa.Column("name", sa.String(length=120), nullable=False),
+        sa.Column("person_id", sa.Uuid(), nullable=False),
+        sa.Column("key_id", sa.Uuid(), nullable=False),
+        sa.Column("at", sa.DateTime(timezone=True), nullable=False),
+        sa.Column("signature", sa.String(length=128), nullable=False),
+        sa.ForeignKeyConstraint(["key_id"], ["person_key.id"]),
+        sa.ForeignKeyConstraint(["person_id"], ["person.id"]),
+        sa.PrimaryKeyConstraint("id"),
+        sa.UniqueConstraint("sha256"),
+    )
     if op.get_bind().dialect.name == "postgresql":
         _postgres_upgrade()
     else:
@@ -189,3 +211,4 @@ def downgrade() -> None:
         _postgres_downgrade()
     else:
         _sqlite_downgrade()
+    op.drop_table("template_set")

@@ -13,6 +13,8 @@ from pathlib import Path
 import pytest
 import sqlalchemy as sa
 
+from testplan.report.render import templates_sha256
+
 from .conftest import PASS, RUN, Bench, approve_and_issue, record_and_judge, sign
 from .test_audit_chain import unlock_audit
 from .test_signoff import problems
@@ -190,9 +192,10 @@ def test_an_approved_report_is_not_printed_with_other_templates(judged: Bench) -
     line = judged.fail(
         "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--templates", str(mine)
     )
+    sha = templates_sha256(mine)[:16]
     assert line == (
-        "error: --templates: QC-2027-014 is approved: its report is issued only with "
-        "testplan's own templates (leave out --templates (it is for drafts))"
+        f"error: --templates: issue QC-2027-014: the template set given (SHA-256 {sha}) is not "
+        "registered (a manager registers it once with `testplan store templates DIR`)"
     )
     assert not (judged.folder / "x.pdf").exists()
 
