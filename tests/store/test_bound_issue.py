@@ -245,7 +245,7 @@ def test_the_approval_covers_the_template_set_that_prints(
         judged(*sign(judged, role, who), "--quiet")
     ((context,),) = judged.sql("SELECT context_json FROM signature WHERE role = 'approved'")
     assert json.loads(context)["printing"]["templates_sha256"] == render.templates_sha256()
-    monkeypatch.setattr(render, "templates_sha256", lambda: "f" * 64)
+    monkeypatch.setattr(render, "templates_sha256", lambda override=None: "f" * 64)
     line = judged.fail(
         "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", "2027-02-01"
     )
