@@ -105,10 +105,12 @@ def open_for_writing(db: str | None, *, create: bool = False, quiet: bool = Fals
     return store
 
 
-def open_for_reading(db: str | None) -> Store:
+def open_for_reading(db: str | None, *, read_only: bool = False) -> Store:
+    """Open the store for a command that reads; ``read_only`` for one that never writes
+    (an archived SQLite copy on read-only media opens too)."""
     from testplan.store.engine import open_store
 
-    store = open_store(db)
+    store = open_store(db, read_only=read_only)
     _OPEN.append(store)
     return store
 

@@ -86,7 +86,10 @@ def report_command(
                 report_number=ctx.report_number,
                 by=records.os_actor(),
                 issue_date=day,
-                printing={"tool_version": __version__, "templates_sha256": templates_sha256()},
+                printing={
+                    "tool_version": __version__,
+                    "templates_sha256": templates_sha256(templates),
+                },
             )
 
         store.write(unit)
@@ -99,18 +102,17 @@ def report_command(
 
 
 def _issue_terms(session: Session, campaign: str, templates: Path | None) -> dt.date | None:
-    """For an approved campaign: refuse other templates than ours (they could print any
-    verdict), and give the date of issue kept for its revision if it was issued."""
+    """For an approved campaign: refuse a template set no manager registered (it could
+    print any verdict; `record_issue` then holds it to the set the approval names), and
+    give the date of issue kept for its revision if it was issued."""
     from testplan.store import records, signoff
 
     camp = records.find_campaign(session, campaign)
     if signoff.approved_manifest(session, camp.id) is None:
         return None  # a draft: any templates, any date
-    if templates is not None:
-        raise TestplanError(
-            f"{camp.reference} is approved: its report is issued only with testplan's own "
-            "templates",
-            key="--templates",
-            fix="leave out --templates (it is for drafts)",
-        )
+    if templates is not None:  # a lab's own set: registered, and the one the approval names
+        from testplan.report.render import templates_sha256
+        from testplan.store.templates import require_registered
+
+        require_registered(session, templates_sha256(templates), doing=f"issue {camp.reference}")
     return signoff.issued_date(session, camp)

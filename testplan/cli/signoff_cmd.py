@@ -32,6 +32,14 @@ def sign_command(
     role: Annotated[str, typer.Option("--role", help=ROLE_HELP)],
     as_: Annotated[str, typer.Option("--as", help="Initials of the signer.")],
     key: KeyOption = None,
+    templates: Annotated[
+        Path | None,
+        typer.Option(
+            "--templates",
+            help="With --role approved: the lab's registered template set the report is to "
+            "be printed with (default: testplan's own).",
+        ),
+    ] = None,
     db: DbOption = None,
     quiet: QuietOption = False,
 ) -> None:
@@ -47,10 +55,14 @@ def sign_command(
     from testplan import __version__
     from testplan.report.render import templates_sha256
 
-    printing = {"tool_version": __version__, "templates_sha256": templates_sha256()}
+    printing = {"tool_version": __version__, "templates_sha256": templates_sha256(templates)}
     store = open_for_writing(db, quiet=quiet)
 
     def unit(session: Session) -> Signed:
+        if templates is not None:
+            from testplan.store.templates import require_registered
+
+            require_registered(session, printing["templates_sha256"], doing=f"sign {role}")
         return signoff.sign(session, campaign=campaign, role=role, signer=signer, printing=printing)
 
     done = store.write(unit)
@@ -114,7 +126,7 @@ def verify_command(
     anchor = identity.parse_trust(_read(trust).decode("utf-8", "replace")) if trust else None
     content = _read(report)
     claims = read_claims(content, report)
-    store = open_for_reading(db)
+    store = open_for_reading(db, read_only=True)
     with store.reading() as session:
         result: Verification = signoff.verify(
             session,

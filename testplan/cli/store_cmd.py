@@ -7,7 +7,7 @@ from typing import Annotated
 
 import typer
 
-from testplan.cli.common import DbOption, QuietOption, command_group, say, track
+from testplan.cli.common import DbOption, KeyOption, QuietOption, command_group, say, track
 from testplan.cli.errors import reports_errors
 from testplan.errors import IntegrityError
 
@@ -60,6 +60,32 @@ def grant_bench_command(
     typer.echo(f"{role}: bench privileges granted ({len(statements)} statements)")
 
 
+@app.command("templates")
+@reports_errors
+def templates_command(
+    folder: Annotated[Path, typer.Argument(help="The lab's template folder.", metavar="DIR")],
+    name: Annotated[str, typer.Option("--name", help="A name for the set.")],
+    by: Annotated[str, typer.Option("--by", help="Initials of the manager registering it.")],
+    key: KeyOption = None,
+    db: DbOption = None,
+    quiet: QuietOption = False,
+) -> None:
+    """Register a lab's own report template set, once, signed by a manager: an approval
+    may then name it (`sign --templates DIR`) and the issued report is printed with it.
+
+    Example: testplan store templates lab-templates/ --name "lab letterhead 2027" --by QM
+    """
+    from testplan.cli.common import load_signer, open_for_writing
+    from testplan.report.render import templates_sha256
+    from testplan.store.templates import register_templates
+
+    signer = load_signer(by, key)
+    sha = templates_sha256(folder)
+    store = open_for_writing(db, quiet=quiet)
+    row = store.write(lambda s: register_templates(s, sha256=sha, name=name, by=signer))
+    typer.echo(f"template set {row.name!r} registered: SHA-256 {row.sha256}")
+
+
 @app.command("check")
 @reports_errors
 def check_command(db: DbOption = None) -> None:
@@ -77,7 +103,7 @@ def check_command(db: DbOption = None) -> None:
         check_raw_files,
     )
 
-    store = open_for_reading(db)
+    store = open_for_reading(db, read_only=True)
     with store.reading() as session:
         entries, chain = check_chain(session)
         files, raw = check_raw_files(session)
@@ -112,7 +138,7 @@ def info_command(
     from testplan.store.engine import current_revision
     from testplan.store.queries import count_rows
 
-    store = open_for_reading(db)
+    store = open_for_reading(db, read_only=True)
     with store.reading() as session:
         counts = count_rows(session)
     info = {

@@ -34,16 +34,21 @@ def template_dir(override: str | Path | None = None) -> Path:
     )
 
 
-def templates_sha256() -> str:
-    """The SHA-256 of testplan's own template set: every file's relative path and bytes, in
-    path order. An approval records it; an issued report prints only with the same set."""
+def templates_sha256(override: str | Path | None = None) -> str:
+    """The SHA-256 of the template set that prints: testplan's own templates (every file's
+    relative path and bytes, in path order) and, with ``override`` (a lab's own folder,
+    which takes precedence), that folder's files the same way after them. An approval
+    records it; an issued report prints only with the same set."""
     import hashlib
 
-    folder = template_dir()
     digest = hashlib.sha256()
-    for path in sorted(p for p in folder.rglob("*") if p.is_file()):
-        digest.update(path.relative_to(folder).as_posix().encode() + b"\0")
-        digest.update(hashlib.sha256(path.read_bytes()).digest())
+    folders = [template_dir()] + ([template_dir(override)] if override is not None else [])
+    for n, folder in enumerate(folders):
+        if n:
+            digest.update(b"override\0")
+        for path in sorted(p for p in folder.rglob("*") if p.is_file()):
+            digest.update(path.relative_to(folder).as_posix().encode() + b"\0")
+            digest.update(hashlib.sha256(path.read_bytes()).digest())
     return digest.hexdigest()
 
 

@@ -4,8 +4,10 @@ The store is named by ``--db``, else ``TESTPLAN_DB``, else ``./testplan.db`` (SQ
 bare path is an SQLite file. Every write command names the store it writes to.
 
 SQLite runs in WAL mode with foreign keys on, a busy timeout, and ``BEGIN IMMEDIATE``
-for every transaction so writers queue instead of failing half-way. A write unit that
-still meets a busy store is retried with back-off, then reported in one line.
+for every transaction so writers queue instead of failing half-way. A write unit, or the
+opening of a store, that still meets a busy store is retried with back-off, then reported
+in one line. Read-only commands open SQLite read-only (immutable when the folder cannot
+be written) with deferred transactions.
 """
 
 from __future__ import annotations
@@ -32,7 +34,7 @@ T = TypeVar("T")
 ENV_VAR = "TESTPLAN_DB"
 # The newest migration in db/versions; tests/store/test_open_and_migrate.py checks it, so a
 # store already at it opens without loading the migration machinery.
-HEAD = "0015"
+HEAD = "0016"
 DEFAULT_FILE = "testplan.db"
 BUSY_TIMEOUT_MS = 10_000
 RETRY_DELAYS_S = (0.2, 0.5, 1.0, 2.0, 4.0)
@@ -81,18 +83,56 @@ def _sqlite_pragmas(dbapi_connection: Any, _record: Any) -> None:
     cur.close()
 
 
+def _sqlite_read_pragmas(dbapi_connection: Any, _record: Any) -> None:
+    # A reader changes nothing, not even the journal mode: the file may be on read-only media.
+    dbapi_connection.isolation_level = None
+    cur = dbapi_connection.cursor()
+    cur.execute("PRAGMA foreign_keys=ON")
+    cur.execute(f"PRAGMA busy_timeout={BUSY_TIMEOUT_MS}")
+    cur.execute("PRAGMA query_only=ON")
+    cur.close()
+
+
 def _sqlite_begin(conn: sa.Connection) -> None:
     conn.exec_driver_sql("BEGIN IMMEDIATE")
 
 
-def make_engine(url: str) -> Engine:
-    """One engine per command run, configured for the engine kind."""
+def _sqlite_begin_deferred(conn: sa.Connection) -> None:
+    conn.exec_driver_sql("BEGIN DEFERRED")
+
+
+def folder_writable(folder: Path) -> bool:
+    """Whether this process may create files in ``folder`` (SQLite's -wal and -shm)."""
+    return os.access(folder, os.W_OK)
+
+
+def _sqlite_read_only(parsed: URL) -> URL:
+    """The file opened read-only (``mode=ro``), or as immutable when its folder cannot be
+    written (an archived copy on read-only media), so no -wal, -shm or journal file is made
+    beside it."""
+    from urllib.parse import quote
+
+    path = Path(parsed.database or "").resolve()
+    mode = {"mode": "ro"} if folder_writable(path.parent) else {"immutable": "1"}
+    return parsed.set(database=f"file:{quote(str(path))}", query={**mode, "uri": "true"})
+
+
+def make_engine(url: str, *, read_only: bool = False) -> Engine:
+    """One engine per command run, configured for the engine kind. ``read_only``: SQLite
+    opens the file read-only (or immutable) with deferred transactions; PostgreSQL
+    sessions are read-only transactions."""
     parsed = _parse(url)
     if parsed.get_backend_name() == "sqlite":
+        if read_only:
+            parsed = _sqlite_read_only(parsed)
         engine = sa.create_engine(parsed, connect_args={"timeout": BUSY_TIMEOUT_MS / 1000})
-        event.listen(engine, "connect", _sqlite_pragmas)
-        event.listen(engine, "begin", _sqlite_begin)
+        event.listen(engine, "connect", _sqlite_read_pragmas if read_only else _sqlite_pragmas)
+        event.listen(engine, "begin", _sqlite_begin_deferred if read_only else _sqlite_begin)
         return engine
+    if read_only:
+        return sa.create_engine(
+            parsed, connect_args={"options": "-c default_transaction_read_only=on"}
+        )
     return sa.create_engine(parsed, pool_pre_ping=False)
 
 
@@ -146,30 +186,52 @@ class Store:
         A busy store (another bench holding the lock, a serialisation conflict) is
         retried with back-off; after that the user gets one line, not a traceback.
         """
-        waited = 0.0
-        for delay in (*RETRY_DELAYS_S, None):
-            try:
-                with Session(self.engine, expire_on_commit=False) as session:
-                    with session.begin():
-                        result = unit(session)
-                    return result
-            except Exception as err:
-                if not isinstance(err, (OperationalError, DBAPIError, *_driver_errors())):
-                    raise
-                if not _is_busy(err):
-                    raise _store_error(self, err) from err
-                if delay is None:
-                    break
-                time.sleep(delay)
-                waited += delay
-        raise StoreError(
-            f"the store {self.name} stayed busy for {waited + BUSY_TIMEOUT_MS / 1000:.0f} s "
-            "(another bench is writing); nothing was stored",
-            fix="try again in a moment",
-        )
+
+        def attempt() -> T:
+            with Session(self.engine, expire_on_commit=False) as session:
+                with session.begin():
+                    result = unit(session)
+                return result
+
+        try:
+            return _retry_busy(attempt)
+        except _StillBusy as busy:
+            raise StoreError(
+                f"the store {self.name} stayed busy for {busy.waited:.0f} s "
+                "(another bench is writing); nothing was stored",
+                fix="try again in a moment",
+            ) from None
+        except Exception as err:
+            if not isinstance(err, (OperationalError, DBAPIError, *_driver_errors())):
+                raise
+            raise _store_error(self, err) from err
 
     def dispose(self) -> None:
         self.engine.dispose()
+
+
+class _StillBusy(Exception):
+    def __init__(self, waited: float) -> None:
+        self.waited = waited
+
+
+def _retry_busy(attempt: Callable[[], T]) -> T:
+    """Run ``attempt``; while the store is busy, again after each of RETRY_DELAYS_S. Raises
+    _StillBusy (with the seconds waited) when it stays busy; other errors pass through."""
+    waited = 0.0
+    for delay in (*RETRY_DELAYS_S, None):
+        try:
+            return attempt()
+        except Exception as err:
+            if not isinstance(err, (OperationalError, DBAPIError, *_driver_errors())):
+                raise
+            if not _is_busy(err):
+                raise
+            if delay is None:
+                raise _StillBusy(waited + BUSY_TIMEOUT_MS / 1000) from err
+            time.sleep(delay)
+            waited += delay
+    raise AssertionError("unreachable")  # pragma: no cover
 
 
 def _store_error(store: Store, err: BaseException) -> StoreError:
@@ -239,7 +301,9 @@ def _at_head(engine: Engine) -> bool:
     try:
         with engine.connect() as conn:
             version = conn.exec_driver_sql("SELECT version_num FROM alembic_version").scalar()
-    except (OperationalError, DBAPIError):
+    except (OperationalError, DBAPIError) as err:
+        if _is_busy(err):
+            raise
         return False
     return version == HEAD
 
@@ -248,13 +312,30 @@ def _has_tables(engine: Engine) -> bool:
     return bool(sa.inspect(engine).get_table_names())
 
 
-def open_store(option: str | None, *, create: bool = False, upgrade: bool = False) -> Store:
+def open_store(
+    option: str | None, *, create: bool = False, upgrade: bool = False, read_only: bool = False
+) -> Store:
     """Open the store named by ``option`` / ``TESTPLAN_DB`` / the default file.
 
     ``create``: make a new store if there is none (write commands that start a store).
     ``upgrade``: the caller will upgrade, so an older schema is not an error.
-    Otherwise the store must exist and be at this version's schema revision.
+    ``read_only``: for commands that only read (verify, store check, store info); an SQLite
+    file is opened read-only, or immutable when its folder cannot be written.
+    Otherwise the store must exist and be at this version's schema revision. A store kept
+    busy by another writer while it is opened is retried, then named in one line.
     """
+    try:
+        return _retry_busy(lambda: _open(option, create, upgrade, read_only))
+    except _StillBusy as busy:
+        raise StoreError(
+            f"the store {shown_url(resolve_url(option))} stayed busy for {busy.waited:.0f} s "
+            "while opening it (another program holds it locked)",
+            key="--db",
+            fix="try again when the other program has finished",
+        ) from None
+
+
+def _open(option: str | None, create: bool, upgrade: bool, read_only: bool) -> Store:
     url = resolve_url(option)
     parsed = _parse(url)
     shown = shown_url(url)
@@ -269,15 +350,17 @@ def open_store(option: str | None, *, create: bool = False, upgrade: bool = Fals
             )
         if not path.parent.is_dir():
             raise StoreError(f"no such folder {path.parent} for the store", key="--db")
-    engine = make_engine(url)
+    engine = make_engine(url, read_only=read_only and not (create or upgrade))
     store = Store(url, engine)
-    if not create and not upgrade and _at_head(engine):
-        return store
     try:
+        if not create and not upgrade and _at_head(engine):
+            return store
         current = current_revision(engine)
         has_tables = current is not None or _has_tables(engine)
     except (OperationalError, DBAPIError) as err:
         engine.dispose()
+        if _is_busy(err):
+            raise
         first = str(getattr(err, "orig", err)).strip().splitlines()[0]
         raise StoreError(f"cannot open the store {shown}: {first}", key="--db") from err
     if current is None:

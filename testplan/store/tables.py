@@ -525,6 +525,20 @@ class ReportIssue(SQLModel, table=True):
 # --- bench page logins (migration 0013) -------------------------------------------------
 
 
+class TemplateSet(SQLModel, table=True):
+    """A lab's own report template set, registered once by a manager: its SHA-256
+    (`report.render.templates_sha256`), a name, and the manager's signature. Append-only."""
+
+    __tablename__ = "template_set"
+    id: uuid.UUID = Field(default_factory=_id, primary_key=True)
+    sha256: str = Field(unique=True, max_length=64)
+    name: str = Field(max_length=120)
+    person_id: uuid.UUID = Field(foreign_key="person.id")
+    key_id: uuid.UUID = Field(foreign_key="person_key.id")
+    at: dt.datetime = Field(sa_type=UTCDateTime)
+    signature: str = Field(max_length=128)
+
+
 class PersonPassword(SQLModel, table=True):
     """A person's bench-page password as an argon2id hash (never the password itself)."""
 

@@ -97,16 +97,21 @@ def csrf_ok(session: BenchSession, token: object) -> bool:
     return isinstance(token, str) and hmac.compare_digest(token, session.csrf)
 
 
-IMAGE_MAGIC = (b"\x89PNG\r\n\x1a\n", b"\xff\xd8\xff", b"GIF87a", b"GIF89a")
-
-
 def photo_problem(name: str, content: bytes) -> str | None:
-    """Why a photo upload is refused, or None: a plain file name and an image Pillow opens."""
+    """Why a photo upload is refused, or None: a plain file name, at most 50 MB, an image
+    type by its first bytes (the CLI's rule, `domain.observations.photo_type`), and an image
+    Pillow opens (HEIC, which Pillow does not read, is taken on its signature)."""
+    from testplan.domain.observations import PHOTO_MAX_BYTES, photo_type
+
     if "/" in name or "\\" in name or ".." in name or not PHOTO_NAME.match(name):
         return "the file name must be a plain name (letters, digits, . - _), no folders"
-    is_webp = content[:4] == b"RIFF" and content[8:12] == b"WEBP"
-    if not (content.startswith(IMAGE_MAGIC) or is_webp):
-        return "not a photo: PNG, JPEG, GIF or WebP expected"
+    if len(content) > PHOTO_MAX_BYTES:
+        return "not a photo: more than 50 MB"
+    media = photo_type(content[:16])
+    if media is None:
+        return "not a photo: JPEG, PNG, WebP, TIFF or HEIC expected"
+    if media == "image/heic":
+        return None
     import io
 
     from PIL import Image, UnidentifiedImageError

@@ -19,9 +19,12 @@ from tests.store.conftest import (  # noqa: F401  (bench and db_url are fixtures
     PASS,
     PG_URL,
     Bench,
+    Roles,
     approve_and_issue,
     bench,
     db_url,
+    fresh_postgres_database,
+    owned_by_roles,
     record_and_judge,
     stock,
 )
@@ -44,41 +47,42 @@ def _sqlite_files(path: Path) -> list[Path]:
 )
 def signed_template(
     request: pytest.FixtureRequest, tmp_path_factory: pytest.TempPathFactory
-) -> Iterator[tuple[str, Path]]:
-    """Build the signed campaign once: returns its URL and the issued PDF."""
+) -> Iterator[tuple[str, Path, Roles | None]]:
+    """Build the signed campaign once: returns its URL, the issued PDF and, on PostgreSQL,
+    the roles (the owner made the store, the bench role recorded and signed it)."""
     folder = tmp_path_factory.mktemp("signed")
-    admin = None
+    drop = None
+    roles = None
     if request.param == "sqlite":
         url = f"sqlite:///{folder / 'lab.db'}"
     else:
         if not PG_URL:
             pytest.skip(NO_PG)
-        name = "tpl_" + uuid.uuid4().hex[:16]
-        admin = sa.create_engine(PG_URL, isolation_level="AUTOCOMMIT")
-        with admin.connect() as conn:
-            conn.exec_driver_sql(f'CREATE DATABASE "{name}"')
-        url = make_url(PG_URL).set(database=name).render_as_string(hide_password=False)
+        url, admin, _ = fresh_postgres_database()
+        admin.dispose()
+        roles, drop = owned_by_roles(url)
     try:
         with pytest.MonkeyPatch.context() as env:
             env.setenv("TESTPLAN_KEY_PASSPHRASE", PASS)
-            bench = record_and_judge(stock(Bench(url, folder)), deviation=True)
-            pdf = approve_and_issue(bench)
-        yield url, pdf
+            if roles is None:
+                bench = stock(Bench(url, folder))
+            else:
+                stock(Bench(roles.owner, folder))("store", "grant-bench", roles.bench_role)
+                bench = Bench(roles.bench, folder)
+            pdf = approve_and_issue(record_and_judge(bench, deviation=True))
+        yield url, pdf, roles
     finally:
-        if admin is not None:
-            with admin.connect() as conn:
-                conn.exec_driver_sql(
-                    f'DROP DATABASE IF EXISTS "{make_url(url).database}" WITH (FORCE)'
-                )
-            admin.dispose()
+        if drop is not None:
+            drop()
 
 
 @pytest.fixture
-def signed(signed_template: tuple[str, Path], tmp_path: Path) -> Iterator[Signed]:
-    """A private copy of the signed campaign for one test."""
-    url, pdf = signed_template
+def signed(signed_template: tuple[str, Path, Roles | None], tmp_path: Path) -> Iterator[Signed]:
+    """A private copy of the signed campaign for one test; on PostgreSQL it is used as the
+    bench role, as a bench's own database user would."""
+    url, pdf, roles = signed_template
     shutil.copy(pdf, tmp_path / pdf.name)
-    if url.startswith("sqlite"):
+    if roles is None:
         source = Path(make_url(url).database or "")
         for f in _sqlite_files(source):
             shutil.copy(f, tmp_path / f.name)
@@ -86,11 +90,14 @@ def signed(signed_template: tuple[str, Path], tmp_path: Path) -> Iterator[Signed
         return
     assert PG_URL is not None
     name = "tp_" + uuid.uuid4().hex[:16]
+    owner = make_url(roles.owner).username
     admin = sa.create_engine(PG_URL, isolation_level="AUTOCOMMIT")
     with admin.connect() as conn:
-        conn.exec_driver_sql(f'CREATE DATABASE "{name}" TEMPLATE "{make_url(url).database}"')
+        conn.exec_driver_sql(
+            f'CREATE DATABASE "{name}" TEMPLATE "{make_url(url).database}" OWNER {owner}'
+        )
     try:
-        copy = make_url(PG_URL).set(database=name).render_as_string(hide_password=False)
+        copy = make_url(roles.bench).set(database=name).render_as_string(hide_password=False)
         yield Signed(Bench(copy, tmp_path), tmp_path / pdf.name)
     finally:
         with admin.connect() as conn:

@@ -1,8 +1,10 @@
 """Tampering is found: for each kind of record in a signed campaign, a change, a deletion
 and an insertion made behind the tool's back (a plain database connection) make `verify`
 fail and name the record. On PostgreSQL the database itself refuses changes and deletions
-of an approved campaign's records; `verify` then still passes, and insertions (which no
-lock can refuse) are named by `verify` as on SQLite."""
+of an approved campaign's records (the tests connect as the bench role `store grant-bench`
+set up); `verify` then still passes, and insertions (which no lock can refuse) are named
+by `verify` as on SQLite. On SQLite the same lock is dropped first, as someone holding the
+file can (`Bench.tamper`)."""
 
 from __future__ import annotations
 
@@ -31,7 +33,7 @@ class Tamper:
 
 
 def sql(statement: str, **params: object) -> Callable[[Bench], None]:
-    return lambda b: b.raw(statement, **params)
+    return lambda b: b.tamper(statement, **params)
 
 
 def extra_block(b: Bench) -> None:
@@ -51,7 +53,7 @@ def extra_block(b: Bench) -> None:
 def extra_calibration(b: Bench) -> None:
     new = clone_row(b, "calibration", "channel = 'lowest_point_depth'", certificate="VC-2099-001")
     assert new is not None
-    b.raw("UPDATE logger_channel SET calibration_id = :c", c=as_param(b, new))
+    b.tamper("UPDATE logger_channel SET calibration_id = :c", c=as_param(b, new))
 
 
 def extra_withdrawal(b: Bench) -> None:
@@ -151,7 +153,7 @@ CASES = [
         "change",
         sql("UPDATE person SET name = 'Mara Osei' WHERE initials = 'MO'"),
         "person MO: changed",
-        False,
+        True,
     ),
     Tamper(
         "person",

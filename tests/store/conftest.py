@@ -6,7 +6,8 @@ from __future__ import annotations
 import datetime as dt
 import os
 import uuid
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
@@ -17,6 +18,7 @@ from typer.testing import CliRunner
 from testplan.cli import app
 
 SAMPLE = Path(__file__).resolve().parents[2] / "sample_campaign" / "flood-gauge-node.toml"
+PHOTO = Path(__file__).resolve().parents[1] / "data" / "photos" / "gland-after-immersion.png"
 PG_URL = os.environ.get("TESTPLAN_TEST_PG_URL")
 PASS = "a demo passphrase"
 MANAGER = "QM"
@@ -46,8 +48,45 @@ def db_url(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[str]:
         yield url
     finally:
         with admin.connect() as conn:
-            conn.exec_driver_sql(f'DROP DATABASE "{name}" WITH (FORCE)')
+            conn.exec_driver_sql(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
         admin.dispose()
+
+
+@dataclass(frozen=True)
+class Roles:
+    """The two-role set-up on a PostgreSQL store: the owner runs migrations, the bench role
+    (given its privileges by `store grant-bench`) does everyday work."""
+
+    owner: str  # URL as the owner role
+    bench: str  # URL as the bench role
+    bench_role: str
+
+
+def owned_by_roles(url: str) -> tuple[Roles, Callable[[], None]]:
+    """Make ``url``'s empty database owned by a new owner role (no superuser), with a new
+    bench role beside it. Returns the roles and a clean-up that drops the database and
+    both roles. `store grant-bench` is left to the caller, once the owner made the store."""
+    assert PG_URL is not None
+    tag = uuid.uuid4().hex[:8]
+    owner, bench = f"tp_owner_{tag}", f"tp_bench_{tag}"
+    name = make_url(url).database
+    admin = sa.create_engine(PG_URL, isolation_level="AUTOCOMMIT")
+    with admin.connect() as conn:
+        conn.exec_driver_sql(f"CREATE ROLE {owner} LOGIN NOSUPERUSER NOCREATEDB NOCREATEROLE")
+        conn.exec_driver_sql(f"CREATE ROLE {bench} LOGIN NOSUPERUSER NOCREATEDB NOCREATEROLE")
+        conn.exec_driver_sql(f'ALTER DATABASE "{name}" OWNER TO {owner}')
+
+    def as_role(role: str) -> str:
+        return make_url(url).set(username=role, password=None).render_as_string(False)
+
+    def drop() -> None:
+        with admin.connect() as conn:
+            conn.exec_driver_sql(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)')
+            conn.exec_driver_sql(f"DROP ROLE IF EXISTS {bench}")
+            conn.exec_driver_sql(f"DROP ROLE IF EXISTS {owner}")
+        admin.dispose()
+
+    return Roles(as_role(owner), as_role(bench), bench), drop
 
 
 class Bench:
@@ -121,6 +160,27 @@ class Bench:
         try:
             with engine.begin() as conn:
                 conn.execute(sa.text(statement), params)
+        finally:
+            engine.dispose()
+
+    def tamper(self, statement: str, **params: object) -> None:
+        """Change the store as someone holding the SQLite file would: drop the lock
+        triggers, make the change, put the triggers back. On PostgreSQL a plain ``raw``
+        (the database user cannot drop the triggers it does not own)."""
+        if not self.url.startswith("sqlite"):
+            self.raw(statement, **params)
+            return
+        engine = sa.create_engine(self.url)
+        try:
+            with engine.begin() as conn:
+                triggers = conn.exec_driver_sql(
+                    "SELECT name, sql FROM sqlite_master WHERE type = 'trigger'"
+                ).all()
+                for name, _ in triggers:
+                    conn.exec_driver_sql(f'DROP TRIGGER "{name}"')
+                conn.execute(sa.text(statement), params)
+                for _, text in triggers:
+                    conn.exec_driver_sql(text)
         finally:
             engine.dispose()
 
@@ -233,12 +293,13 @@ RUN = "water-8@ip-verification-1"
 
 
 def record_and_judge(
-    bench: Bench, *, deviation: bool = False, until_finished: bool = False
+    bench: Bench, *, deviation: bool = False, until_finished: bool = False, photo: bool = False
 ) -> Bench:
     """One run recorded, checked and judged; RP, LV, MO hold enrolled keys (the key
     passphrase comes from $TESTPLAN_KEY_PASSPHRASE, set to PASS by the Bench). With
     ``deviation`` the run also carries an approved deviation; with ``until_finished`` the
-    run is left finished, neither checked nor judged."""
+    run is left finished, neither checked nor judged; with ``photo`` the ingress
+    observation carries a photo."""
     bench.add("RP", "Rita Pereira", "preparer")
     bench.add("LV", "Lars Vik", "reviewer", "preparer")
     for who in ("RP", "LV"):
@@ -268,6 +329,7 @@ def record_and_judge(
         "QC-2027-014-S01",
         "--ingress",
         "water:none",
+        *(("--photo", str(PHOTO)) if photo else ()),
         "--by",
         "AK",
         "--quiet",
@@ -312,3 +374,23 @@ def approve_and_issue(b: Bench, name: str = "report.pdf") -> Path:
     pdf = b.folder / name
     b("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01", "--quiet")
     return pdf
+
+
+@pytest.fixture
+def bench_role(db_url: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Iterator[Bench]:
+    """PostgreSQL only: the store made by its owner role (no superuser), the campaign
+    recorded, approved and issued as a bench role set up by `store grant-bench`."""
+    if not db_url.startswith("postgresql"):
+        pytest.skip("roles are a PostgreSQL matter")
+    monkeypatch.setenv("TESTPLAN_KEY_PASSPHRASE", PASS)
+    roles, drop = owned_by_roles(db_url)
+    try:
+        owner = stock(Bench(roles.owner, tmp_path))
+        result = owner("store", "grant-bench", roles.bench_role)
+        assert result.stdout.startswith(f"{roles.bench_role}: bench privileges granted")
+        b = Bench(roles.bench, tmp_path)
+        record_and_judge(b, photo=True)
+        approve_and_issue(b)
+        yield b
+    finally:
+        drop()

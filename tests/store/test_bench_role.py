@@ -3,32 +3,12 @@ alter, disable triggers or change append-only records (finding 5)."""
 
 from __future__ import annotations
 
-import uuid
 from pathlib import Path
 
 import pytest
 import sqlalchemy as sa
-from sqlalchemy.engine import make_url
 
-from .conftest import PASS, Bench, approve_and_issue, record_and_judge, stock
-
-
-@pytest.fixture
-def bench_role(db_url: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Bench:
-    """The store made by the owner; the campaign recorded and issued as a bench role."""
-    if not db_url.startswith("postgresql"):
-        pytest.skip("roles are a PostgreSQL matter")
-    monkeypatch.setenv("TESTPLAN_KEY_PASSPHRASE", PASS)
-    owner = stock(Bench(db_url, tmp_path))
-    role = "bench_" + uuid.uuid4().hex[:8]
-    owner.raw(f"CREATE ROLE {role} LOGIN")
-    result = owner("store", "grant-bench", role)
-    assert result.stdout.startswith(f"{role}: bench privileges granted")
-    url = make_url(db_url).set(username=role, password=None)
-    b = Bench(url.render_as_string(hide_password=False), tmp_path)
-    record_and_judge(b)
-    approve_and_issue(b)
-    return b
+from .conftest import Bench, owned_by_roles, stock
 
 
 @pytest.mark.parametrize(
@@ -48,12 +28,31 @@ def bench_role(db_url: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> 
         "DELETE FROM role_grant",
         "UPDATE key_revocation SET reason = 'x'",
         "UPDATE person_key SET public_key = 'x'",
+        "ALTER TABLE sample_block DISABLE TRIGGER sample_block_locked",
+        "DROP TRIGGER person_locked ON person",
+        "DROP FUNCTION testplan_lock_verdict() CASCADE",
+        "CREATE SCHEMA scratch",
+        "CREATE FUNCTION scratch() RETURNS int LANGUAGE sql AS 'SELECT 1'",
+        "ALTER TABLE person OWNER TO CURRENT_USER",
+        "DELETE FROM audit WHERE seq > 1",
+        "UPDATE verdict SET outcome = 'pass'",
+        "UPDATE person SET name = 'Somebody Else' WHERE initials = 'RP'",
+        "UPDATE person SET initials = 'XX' WHERE initials = 'AK'",
+        "UPDATE procedure SET edition = '1989'",
+        "UPDATE criterion SET max = 999 WHERE max IS NOT NULL",
+        "UPDATE equipment SET serial = '00000'",
+        "UPDATE attachment SET name = 'other.png'",
+        "UPDATE run SET state = 'planned'",
+        "UPDATE campaign SET title = 'Another'",
+        "UPDATE raw_file SET withdrawn_why = 'gone'",
+        "UPDATE store_meta SET value = 'x'",
     ],
 )
 def test_the_bench_role_cannot_get_around_the_record(bench_role: Bench, statement: str) -> None:
     with pytest.raises(sa.exc.DBAPIError) as err:
         bench_role.raw(statement)
-    assert "permission denied" in str(err.value.orig) or "must be owner" in str(err.value.orig)
+    refused = ("permission denied", "must be owner", "is locked; use testplan amend")
+    assert any(r in str(err.value.orig) for r in refused), err.value.orig
     assert bench_role("store", "check").stdout.startswith("ok: ")
     assert "verified" in bench_role("verify", str(bench_role.folder / "report.pdf")).stdout
 
@@ -69,9 +68,13 @@ def test_the_bench_role_grants_and_revokes_as_a_manager(bench_role: Bench) -> No
 def test_the_owner_cannot_truncate_either(db_url: str, tmp_path: Path, table: str) -> None:
     if not db_url.startswith("postgresql"):
         pytest.skip("PostgreSQL triggers")
-    owner = stock(Bench(db_url, tmp_path))
-    with pytest.raises(sa.exc.DBAPIError, match="cannot be truncated: records are kept"):
-        owner.raw(f"TRUNCATE {table} CASCADE")
+    roles, drop = owned_by_roles(db_url)
+    try:
+        owner = stock(Bench(roles.owner, tmp_path))
+        with pytest.raises(sa.exc.DBAPIError, match="cannot be truncated: records are kept"):
+            owner.raw(f"TRUNCATE {table} CASCADE")
+    finally:
+        drop()
 
 
 def test_grant_bench_on_sqlite_is_one_line(bench: Bench) -> None:

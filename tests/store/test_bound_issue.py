@@ -13,6 +13,8 @@ from pathlib import Path
 import pytest
 import sqlalchemy as sa
 
+from testplan.report.render import templates_sha256
+
 from .conftest import PASS, RUN, Bench, approve_and_issue, record_and_judge, sign
 from .test_audit_chain import unlock_audit
 from .test_signoff import problems
@@ -27,7 +29,7 @@ def judged(bench: Bench, monkeypatch: pytest.MonkeyPatch) -> Bench:
 def tamper(b: Bench, statement: str) -> bool:
     """Run ``statement`` behind the tool; False when PostgreSQL's lock refused it."""
     try:
-        b.raw(statement)
+        b.tamper(statement)
     except sa.exc.DBAPIError as err:
         assert b.url.startswith("postgresql"), err
         assert "locked" in str(err.orig), err
@@ -97,7 +99,7 @@ def test_raw_file_bytes_stored_as_text_are_named_not_a_crash(judged: Bench) -> N
     if judged.url.startswith("postgresql"):
         pytest.skip("a bytea column cannot hold text; SQLite columns take any type")
     pdf = approve_and_issue(judged)
-    judged.raw("UPDATE raw_file SET content = 'time,depth'")
+    judged.tamper("UPDATE raw_file SET content = 'time,depth'")
     found = problems(judged, pdf)
     assert any(p.startswith("raw file tank.csv of " + RUN + ": changed") for p in found), found
     result = judged("store", "check", ok=False)
@@ -190,9 +192,10 @@ def test_an_approved_report_is_not_printed_with_other_templates(judged: Bench) -
     line = judged.fail(
         "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--templates", str(mine)
     )
+    sha = templates_sha256(mine)[:16]
     assert line == (
-        "error: --templates: QC-2027-014 is approved: its report is issued only with "
-        "testplan's own templates (leave out --templates (it is for drafts))"
+        f"error: --templates: issue QC-2027-014: the template set given (SHA-256 {sha}) is not "
+        "registered (a manager registers it once with `testplan store templates DIR`)"
     )
     assert not (judged.folder / "x.pdf").exists()
 
@@ -242,7 +245,7 @@ def test_the_approval_covers_the_template_set_that_prints(
         judged(*sign(judged, role, who), "--quiet")
     ((context,),) = judged.sql("SELECT context_json FROM signature WHERE role = 'approved'")
     assert json.loads(context)["printing"]["templates_sha256"] == render.templates_sha256()
-    monkeypatch.setattr(render, "templates_sha256", lambda: "f" * 64)
+    monkeypatch.setattr(render, "templates_sha256", lambda override=None: "f" * 64)
     line = judged.fail(
         "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", "2027-02-01"
     )

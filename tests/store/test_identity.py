@@ -400,7 +400,9 @@ def test_a_grant_inserted_by_sql_does_not_authorise(judged: Bench) -> None:
             judged.raw("UPDATE role_grant SET reason = 'x'")
         return
     # replace MO's approver grant by an unsigned one
-    judged.raw("UPDATE role_grant SET signature = NULL, by_key_id = NULL WHERE role = 'approver'")
+    judged.tamper(
+        "UPDATE role_grant SET signature = NULL, by_key_id = NULL WHERE role = 'approver'"
+    )
     found = problems(judged, str(pdf), "--trust", anchor)
     assert any("approver grant is not signed by a manager" in p for p in found), found
 

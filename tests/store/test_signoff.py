@@ -111,7 +111,7 @@ def test_a_direct_edit_is_refused_by_postgresql_or_named_by_verify(
             judged.raw(statement)
         assert "verified" in judged("verify", str(pdf)).stdout
         return
-    judged.raw(statement)
+    judged.tamper(statement)
     found = problems(judged, pdf)
     assert any(p.startswith(named) for p in found), found
 
@@ -137,18 +137,19 @@ def test_signatures_made_before_the_sample_block_upgrade_still_verify(judged: Be
         engine.dispose()
     assert judged.sql("SELECT count(*) FROM sample") == [(before,)]
     assert "upgraded the store from schema 0008" in judged("store", "upgrade").stdout
-    engine = make_engine(judged.url)
-    try:
-        with engine.begin() as conn:
-            if judged.url.startswith("postgresql"):
+    put_back = "UPDATE signature SET context_json = :c WHERE id = :i"
+    if judged.url.startswith("sqlite"):
+        for sid, context in contexts:
+            judged.tamper(put_back, c=context, i=sid)
+    else:
+        engine = make_engine(judged.url)
+        try:
+            with engine.begin() as conn:
                 conn.exec_driver_sql("SET LOCAL session_replication_role = replica")
-            for sid, context in contexts:
-                conn.execute(
-                    sa.text("UPDATE signature SET context_json = :c WHERE id = :i"),
-                    {"c": context, "i": sid},
-                )
-    finally:
-        engine.dispose()
+                for sid, context in contexts:
+                    conn.execute(sa.text(put_back), {"c": context, "i": sid})
+        finally:
+            engine.dispose()
     # Going down to 0008 also undid 0010, 0012 and 0014 (whose signature contexts are put
     # back above): the deviation loses its approval's signature and the criterion it
     # covered, so it is named as changed with the run.
@@ -176,7 +177,7 @@ def test_a_signature_by_an_unregistered_key_fails(judged: Bench) -> None:
         with pytest.raises(sa.exc.DBAPIError, match="person_key records are append-only"):
             judged.raw("UPDATE person_key SET public_key = :k", k=other)
         return
-    judged.raw(
+    judged.tamper(
         "UPDATE person_key SET public_key = :k, fingerprint = :f WHERE person_id = "
         "(SELECT id FROM person WHERE initials = 'MO')",
         k=other,

@@ -331,3 +331,23 @@ def test_a_deviation_is_approved_only_by_an_approver_with_their_own_key(
     assert bench.sql("SELECT count(*) FROM deviation") == [(0,)]
     assert "deviation recorded, approved by MO" in deviation("MO", "MO.pem")
     assert bench.sql("SELECT count(*) FROM deviation") == [(1,)]
+
+
+def test_photo_uploads_follow_the_cli_rule() -> None:
+    """The page takes what `record observe --photo` takes: JPEG, PNG, WebP, TIFF or HEIC
+    by their first bytes, up to 50 MB, under a plain name."""
+    from testplan.web.security import photo_problem
+
+    png = (DATA / "photos" / "gland-after-immersion.png").read_bytes()
+    # source: ISO/IEC 23008-12 (HEIF) ftyp box with brand "heic" (from memory)
+    heic = b"\x00\x00\x00\x18ftypheic\x00\x00\x00\x00mif1heic"
+    assert photo_problem("gland.png", png) is None
+    assert photo_problem("gland.heic", heic) is None
+    assert photo_problem("gland.gif", b"GIF89a" + b"\x00" * 64) == (
+        "not a photo: JPEG, PNG, WebP, TIFF or HEIC expected"
+    )
+    assert photo_problem("big.png", png[:16] + b"\x00" * (50 * 1024 * 1024)) == (
+        "not a photo: more than 50 MB"
+    )
+    for name in ("gland\u202egnp.png", "gland\x07.png", "gland\u2066.png"):
+        assert "plain name" in (photo_problem(name, png) or ""), repr(name)
