@@ -64,8 +64,8 @@ def text(report: tuple[Path, list[str], PdfReader]) -> str:
         "guarded acceptance, w = 1 x U (ILAC-G8); agreed: client letter QG-QA-0112",  # rule
         "supplied by the client",  # customer-supplied data identified (cl. 7.8.2.2)
         "The laboratory is not responsible for it",  # its disclaimer
-        # cl. 7.8.7: no seal retest yet, so the reliability claim is withheld
-        "Interpretation. Reliability claim withheld: failures not yet all counted",
+        # cl. 7.8.7: S03 failed where the plan allows none, so the reliability claim is withheld
+        "Interpretation. Reliability claim withheld: 1 failure (QC-2027-014-S03",
         "shall not be reproduced except in full",
     ],
 )
