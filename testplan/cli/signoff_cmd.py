@@ -139,17 +139,21 @@ def verify_command(
     with_store = not offline and bool(db or os.environ.get(ENV_VAR) or Path(DEFAULT_FILE).exists())
     lines: list[str] = []
     problems: list[str] = []
+    anchor_in_proof = anchor is not None
     try:
         if anchor is not None or not with_store:
             if anchor is None:
                 raise TestplanError(
-                    "no store here, and the proof alone needs the lab's trust file",
+                    "checking the PDF without a store needs the lab's trust file",
                     key="--trust",
                     fix="give --trust FILE from `testplan keys trust`, or --db STORE",
                 )
             lines, problems = proof.check(content, anchor)
     except proof.NotAProofError as err:
-        raise TestplanError(f"not an issued testplan report ({err})", file=report) from None
+        if not with_store:
+            raise TestplanError(f"not an issued testplan report ({err})", file=report) from None
+        lines = [f"the PDF carries no proof of its own ({err})"]
+        anchor_in_proof = False
     if not with_store:
         lines.insert(0, "mode: offline, from the proof inside the PDF")
     else:
@@ -165,7 +169,7 @@ def verify_command(
                 trust=anchor,
                 content=content,
             )
-        checked = "the proof inside the PDF and " if anchor is not None else ""
+        checked = "the proof inside the PDF and " if anchor_in_proof else ""
         lines = [f"mode: {checked}the store {store.name}", *lines]
         for line in result.lines:
             if line.startswith("problem: "):

@@ -78,6 +78,8 @@ def signed(signed_template: tuple[str, Path], tmp_path: Path) -> Iterator[Signed
     """A private copy of the signed campaign for one test."""
     url, pdf = signed_template
     shutil.copy(pdf, tmp_path / pdf.name)
+    for key in pdf.parent.glob("*.pem*"):  # the signers' key files, to issue again
+        shutil.copy(key, tmp_path / key.name)
     if url.startswith("sqlite"):
         source = Path(make_url(url).database or "")
         for f in _sqlite_files(source):

@@ -278,5 +278,9 @@ def test_a_damaged_or_foreign_pdf_is_one_line(
     for bad in (cut, draft):
         line = b.fail("verify", str(bad), "--trust", str(trust), "--offline")
         assert line.startswith(f"error: {bad}: not an issued testplan report ("), line
+    assert b.fail("verify", str(pdf), "--offline") == (
+        "error: --trust: checking the PDF without a store needs the lab's trust file (give "
+        "--trust FILE from `testplan keys trust`, or --db STORE)"
+    )
     assert PdfReader(pdf).attachments.keys() == {P.PROOF_NAME}
     assert SIGNED_AT["approved"] < "2027-02-01"
