@@ -487,7 +487,12 @@ def _check(
             times.append((role, at))
         problems.extend(_time_problems(times, checks))
         approval = (sigs.get("approved") or {}).get("context") or {}
-        if approval.get("results_sha256") != results_sha256(proof["results"]):
+        if "results_sha256" not in approval:
+            problems.append(
+                "the approval does not cover the results it states (approved before approvals "
+                "signed them); only `verify --db STORE` can check this report"
+            )
+        elif approval["results_sha256"] != results_sha256(proof["results"]):
             problems.append(
                 "the results in the proof are not the ones approved (their SHA-256 differs "
                 "from the approval's)"
