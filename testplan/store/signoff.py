@@ -883,13 +883,17 @@ def _issue_signature_problems(
     from testplan.store import proof
 
     try:
-        _base, record = proof.split(content)
+        base, record = proof.split(content)
+        exact = record is not None and base + proof.tail(base, record) == content
     except proof.NotAProofError:
-        record = None
+        record, exact = None, False
     if record is None or record.get("signature") != issue.signature:
         return ["the PDF's issue signature is not the one recorded"]
-    if record.get("base_sha256") != issue.base_sha256:
-        return ["the PDF before its signed tail is not the one recorded"]
+    base_sha = hashlib.sha256(base).hexdigest()
+    if not exact or record.get("base_sha256") != base_sha or base_sha != issue.base_sha256:
+        return [
+            "the PDF was changed or added to after it was issued (its signed tail does not fit)"
+        ]
     person = session.get(Person, issue.person_id)
     key = session.get(PersonKey, issue.key_id)
     if person is None or key is None:

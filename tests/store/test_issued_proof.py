@@ -284,3 +284,33 @@ def test_a_damaged_or_foreign_pdf_is_one_line(
     )
     assert PdfReader(pdf).attachments.keys() == {P.PROOF_NAME}
     assert SIGNED_AT["approved"] < "2027-02-01"
+
+
+def test_a_changed_pdf_with_its_recorded_hash_rewritten_is_refused_or_named(
+    issued: tuple[Bench, Path, Path], tmp_path: Path
+) -> None:
+    """Someone holding the database edits the PDF's results and puts the new file's SHA-256
+    in the issue record, keeping the issuer's signed tail."""
+    import hashlib
+
+    import sqlalchemy as sa
+
+    b, pdf, _trust = issued
+    base, proof, record = _base_and_proof(pdf)
+    edited = copy.deepcopy(proof)
+    edited["results"]["runs"][0]["outcome"] = "pass-edited"
+    new_base = _with_proof(base, edited)
+    forged = tmp_path / "forged.pdf"
+    forged.write_bytes(new_base + P.tail(new_base, record))
+    sha = hashlib.sha256(forged.read_bytes()).hexdigest()
+    try:
+        b.raw("UPDATE report_issue SET pdf_sha256 = :s", s=sha)
+    except sa.exc.DBAPIError as err:  # PostgreSQL: issue records are append-only
+        assert b.url.startswith("postgresql"), err
+        assert "report_issue" in str(err.orig), err
+        return
+    found = problems(b, forged)
+    assert (
+        "the PDF was changed or added to after it was issued (its signed tail does not fit)"
+        in found
+    ), found
