@@ -169,13 +169,21 @@ testplan record list
 # Judge every finished run from its data; water-8@aged-1 fails (exit 3 is expected here).
 testplan judge || [ $? -eq 3 ]
 
-# Sign-off by three different people with their own keys.
-testplan sign QC-2027-014 --role prepared --as RP --key "$keys/RP.pem" $q
-testplan sign QC-2027-014 --role reviewed --as LV --key "$keys/LV.pem" $q
-testplan sign QC-2027-014 --role approved --as MO --key "$keys/MO.pem" $q
+# Sign-off by three different people with their own keys, in that order, after the last
+# data check (2027-01-31 11:00 UTC).
+testplan sign QC-2027-014 --role prepared --as RP --key "$keys/RP.pem" --at 2027-01-31T14:00Z $q
+testplan sign QC-2027-014 --role reviewed --as LV --key "$keys/LV.pem" --at 2027-01-31T15:00Z $q
+testplan sign QC-2027-014 --role approved --as MO --key "$keys/MO.pem" --at 2027-01-31T16:00Z $q
 
-# The issued test report, then a check of the PDF against the store, and against the
+# The issued test report, signed by the approver issuing it, with its proof embedded; the
 # manager keys exported as the trust anchor (kept apart from the store).
-testplan report QC-2027-014 -o "$out/report.pdf" --issue-date 2027-02-01 $q
+testplan report QC-2027-014 -o "$out/report.pdf" --issue-date 2027-02-01 "${mo[@]}" $q
 testplan keys trust --out "$out/trust.json"
+# The PDF against the store and its records...
 testplan verify "$out/report.pdf" --trust "$out/trust.json"
+# ...and from the PDF alone, with the store moved away.
+abs=$(cd "$out" && pwd)
+mkdir -p "$abs/away"
+for f in "$abs"/testplan.db*; do mv "$f" "$abs/away/"; done
+(cd "$abs/bench" && env -u TESTPLAN_DB testplan verify "$abs/report.pdf" --trust "$abs/trust.json")
+mv "$abs"/away/testplan.db* "$abs/" && rmdir "$abs/away"

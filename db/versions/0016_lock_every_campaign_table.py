@@ -1,7 +1,7 @@
 """the approved-campaign lock on every table a manifest covers, on SQLite and PostgreSQL
 
 Revision ID: 0016
-Revises: 0014
+Revises: 0015
 Create Date: 2026-12-02
 
 Once a campaign's latest manifest carries an approved signature (and no amendment has

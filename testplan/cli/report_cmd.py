@@ -7,7 +7,15 @@ from typing import TYPE_CHECKING, Annotated
 
 import typer
 
-from testplan.cli.common import DbOption, QuietOption, open_for_writing, parse_date, say
+from testplan.cli.common import (
+    DbOption,
+    KeyOption,
+    QuietOption,
+    load_signer,
+    open_for_writing,
+    parse_date,
+    say,
+)
 from testplan.cli.errors import reports_errors
 from testplan.errors import TestplanError
 
@@ -31,15 +39,21 @@ def report_command(
     templates: Annotated[
         Path | None, typer.Option("--templates", help="Folder of templates overriding ours.")
     ] = None,
+    by: Annotated[
+        str | None,
+        typer.Option("--by", help="Initials of who issues it (an approver); approved campaigns."),
+    ] = None,
+    key: KeyOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
 ) -> None:
     """Render the campaign's test report as a PDF (A4 or letter).
 
-    The PDF is written to a temporary file and renamed, so a half-written report never
-    sits under the final name.
+    An approved campaign's report is issued: signed by the approver issuing it (--by, --key),
+    with the proof of its sign-off embedded. The PDF is written to a temporary file and
+    renamed, so a half-written report never sits under the final name.
 
-    Example: testplan report QC-2027-014 -o report.pdf
+    Example: testplan report QC-2027-014 -o report.pdf --by MO --key ~/keys/mo.pem
     """
     import datetime as dt
 
@@ -58,6 +72,7 @@ def report_command(
     import hashlib
 
     from testplan.store import records, signoff
+    from testplan.store.proof import PROOF_NAME, proof_bytes
 
     store = open_for_writing(db, quiet=quiet)
     with store.reading() as session:
@@ -73,27 +88,45 @@ def report_command(
         progress=lambda n, key: say(f"run {n} of {len(data.runs)} drawn: {key}", quiet=quiet),
     )
     say("printing the PDF", quiet=quiet)
-    pdf = report_pdf(ctx, templates)
-    if not ctx.draft:
-        sha = hashlib.sha256(pdf).hexdigest()
-
-        def unit(session: Session) -> None:
+    if ctx.draft:
+        pdf = report_pdf(ctx, templates)
+    else:
+        if by is None:
+            raise TestplanError(
+                f"{campaign} is approved: its report is issued, signed by an approver",
+                key="--by",
+                fix="give --by INITIALS --key FILE of an approver",
+            )
+        signer = load_signer(by, key)
+        with store.reading() as session:
             camp = records.find_campaign(session, campaign)
-            signoff.record_issue(
+            plan = signoff.plan_issue(
                 session,
                 campaign=camp,
-                pdf_sha256=sha,
+                signer=signer,
                 report_number=ctx.report_number,
-                by=records.os_actor(),
                 issue_date=day,
-                printing={
-                    "tool_version": __version__,
-                    "templates_sha256": templates_sha256(templates),
-                },
+            )
+        base = report_pdf(ctx, templates, proof_bytes(plan.proof), PROOF_NAME)
+
+        def unit(session: Session) -> bytes:
+            camp = records.find_campaign(session, campaign)
+            return signoff.record_issue(
+                session,
+                campaign=camp,
+                plan=plan,
+                base=base,
+                signer=signer,
+                printing={"tool_version": __version__, "templates_sha256": templates_sha256(templates)},
             )
 
-        store.write(unit)
-        say(f"issued {ctx.report_number} revision {ctx.revision}, PDF SHA-256 {sha}", quiet=quiet)
+        pdf = store.write(unit)
+        sha = hashlib.sha256(pdf).hexdigest()
+        say(
+            f"issued {ctx.report_number} revision {ctx.revision} by {plan.person.initials}, "
+            f"PDF SHA-256 {sha}",
+            quiet=quiet,
+        )
     if html is not None:
         write_atomically(html, report_html(ctx, templates).encode())
     write_atomically(output, pdf)

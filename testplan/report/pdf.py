@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import base64
+import datetime as dt
 import json
 from dataclasses import asdict
 from pathlib import Path
@@ -34,9 +35,16 @@ def report_html(ctx: ReportContext, templates: str | Path | None = None) -> str:
     return env.get_template("report.html.j2").render(c=ctx)
 
 
-def report_pdf(ctx: ReportContext, templates: str | Path | None = None) -> bytes:
-    """Print the report; the PDF's metadata carries the report number and revision."""
-    from weasyprint import HTML
+def report_pdf(
+    ctx: ReportContext,
+    templates: str | Path | None = None,
+    proof: bytes | None = None,
+    proof_name: str = "testplan-proof.json",
+) -> bytes:
+    """Print the report; the PDF's metadata carries the report number and revision, and
+    ``proof`` (an issued report's) is embedded as the file ``proof_name``. Its creation date
+    is the date of issue, so the same inputs print the same bytes."""
+    from weasyprint import HTML, Attachment
 
     html = report_html(ctx, templates)
     meta = {
@@ -50,7 +58,15 @@ def report_pdf(ctx: ReportContext, templates: str | Path | None = None) -> bytes
     document.metadata.title = f"{ctx.report_number} revision {ctx.revision}"
     document.metadata.authors = [ctx.laboratory]
     document.metadata.keywords = [json.dumps(meta, sort_keys=True)]
-    pdf: bytes = document.write_pdf()
+    stamp = f"{ctx.issue_date}T00:00:00Z"
+    document.metadata.created = document.metadata.modified = stamp
+    when = dt.datetime.fromisoformat(stamp)
+    attachments = (
+        [Attachment(string=proof, base_url=".", name=proof_name, created=when, modified=when)]
+        if proof is not None
+        else []
+    )
+    pdf: bytes = document.write_pdf(attachments=attachments)
     return pdf
 
 

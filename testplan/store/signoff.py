@@ -25,6 +25,7 @@ from testplan.store import audit
 from testplan.store.identity import (
     Signer,
     Trust,
+    actor_of,
     find_person,
     require_role,
     signature_problem,
@@ -138,6 +139,15 @@ def _sample_chunks(session: Session, raw: RawFile) -> list[Item]:
     return items
 
 
+def run_body(session: Session, run: RunRecord) -> dict[str, Any]:
+    """A run's record as the manifest hashes it: its columns and its specimens' ids."""
+    members = sorted(
+        str(link.specimen_id)
+        for link in session.exec(select(RunSpecimen).where(RunSpecimen.run_id == run.id))
+    )
+    return {**_row(run), "specimens": members}
+
+
 def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
     """Every record of the campaign, hashed. The same data gives the same items anywhere."""
     items: list[Item] = []
@@ -170,11 +180,7 @@ def compute_items(session: Session, campaign: CampaignRecord) -> list[Item]:
     calibrations: set[uuid.UUID] = set()
     instruments: set[uuid.UUID] = set()
     for run in runs:
-        members = sorted(
-            str(link.specimen_id)
-            for link in session.exec(select(RunSpecimen).where(RunSpecimen.run_id == run.id))
-        )
-        add("run", run, f"run {run.key}", {**_row(run), "specimens": members})
+        add("run", run, f"run {run.key}", run_body(session, run))
         people.update(p for p in (run.operator_id, run.checker_id) if p)
         for use in session.exec(select(RunEquipment).where(RunEquipment.run_id == run.id)):
             add("run_equipment", use, f"equipment used on {run.key}", _row(use))
@@ -335,6 +341,24 @@ def _ready(session: Session, campaign: CampaignRecord) -> None:
             )
 
 
+def _check_signing_time(session: Session, campaign: CampaignRecord, at: dt.datetime) -> None:
+    """A signature is not dated before any run's data check."""
+    checks = [
+        (r.checked_at.astimezone(dt.UTC), r.key)
+        for r in session.exec(select(RunRecord).where(RunRecord.campaign_id == campaign.id))
+        if r.checked_at is not None
+    ]
+    if checks:
+        last, run = max(checks)
+        if at < last:
+            raise RecordError(
+                f"a signature dated {at:%Y-%m-%d %H:%M} UTC would be before the data check "
+                f"of run {run} ({last:%Y-%m-%d %H:%M} UTC)",
+                key="--at",
+                fix=f"give --at {last:%Y-%m-%dT%H:%MZ} or later",
+            )
+
+
 def _differences(stored: list[list[str]], now: list[Item], *, only_stored: bool) -> list[str]:
     """What changed between a stored manifest and the records now, named."""
     before = {(k, i): (label, h) for k, i, label, h in stored}
@@ -368,20 +392,25 @@ def sign(
     role: str,
     signer: Signer,
     printing: dict[str, str] | None = None,
+    at: dt.datetime | None = None,
 ) -> Signed:
     """Sign the campaign's records in ``role`` (prepared, reviewed, approved) with the
-    signer's own active key; the role is checked as granted now. The approval also covers
-    ``printing``: the tool version and the SHA-256 of the template set that will print the
-    issued report."""
+    signer's own active key, dated ``at`` (now when None); the role and key are checked as
+    in force then. The signature may not be dated before any run's data check nor before
+    the previous role's signature. The approval also covers ``printing`` (the tool version
+    and the SHA-256 of the template set that will print the issued report) and the SHA-256
+    of the results the report states (``proof.results``)."""
     if role not in ROLES:
         raise RecordError(
             f"unknown role {role!r}", key="--role", fix="prepared, reviewed or approved"
         )
     camp = find_campaign(session, campaign)
     ensure_open(session, camp.id)
-    person = require_role(session, signer.initials, ROLES[role], key=signer.option)
-    person, key_row = signer_key(session, signer)
+    at = (at or utc_now()).astimezone(dt.UTC)
+    person = require_role(session, signer.initials, ROLES[role], key=signer.option, at=at)
+    person, key_row = signer_key(session, signer, at=at)
     _ready(session, camp)
+    _check_signing_time(session, camp, at)
     items = compute_items(session, camp)
     root = root_of(items)
     manifest = current_manifest(session, camp)
@@ -425,10 +454,22 @@ def sign(
             "prepared, reviewed and approved need three different people",
             key="--as",
         )
-    at = utc_now()
+    for before in ORDER[: ORDER.index(role)]:
+        earlier = existing[before].signed_at.astimezone(dt.UTC)
+        if at < earlier:
+            raise RecordError(
+                f"a {role} signature dated {at:%Y-%m-%d %H:%M} UTC would be before the "
+                f"{before} one ({earlier:%Y-%m-%d %H:%M} UTC)",
+                key="--at",
+                fix=f"give --at {earlier:%Y-%m-%dT%H:%MZ} or later",
+            )
     context = signature_context(session, person)
-    if role == "approved" and printing is not None:
-        context["printing"] = printing
+    if role == "approved":
+        from testplan.store.proof import results, results_sha256
+
+        context["results_sha256"] = results_sha256(results(session, camp))
+        if printing is not None:
+            context["printing"] = printing
     msg = message(root, role, camp.reference, person.initials, at, context)
     sig = keys.sign(signer.private_key, msg)
     row = Signature(
@@ -568,23 +609,79 @@ def _check_issue_date(
             )
 
 
+@dataclass(frozen=True)
+class IssuePlan:
+    """What an issue will be: its proof (embedded in the PDF before it is signed), who
+    issues it with which key, and the time of issue it will be signed with."""
+
+    proof: dict[str, Any]
+    person: Person
+    key: PersonKey
+    issued_at: dt.datetime
+
+
+def plan_issue(
+    session: Session,
+    *,
+    campaign: CampaignRecord,
+    signer: Signer,
+    report_number: str,
+    issue_date: dt.date,
+) -> IssuePlan:
+    """The proof for issuing the approved campaign, by ``signer``, who must hold the approver
+    role (as granted at the time of issue) and sign with their own active key. Printing an
+    issued revision again keeps its time of issue, so the same signer gets the same bytes."""
+    from testplan.store import proof
+
+    manifest = approved_manifest(session, campaign.id)
+    if manifest is None:
+        raise RecordError(f"{campaign.reference} is not approved; drafts are not issued")
+    revision = report_revision(session, campaign.id)
+    earlier = session.exec(
+        select(ReportIssue).where(
+            ReportIssue.manifest_id == manifest.id, ReportIssue.revision == revision
+        )
+    ).first()
+    at = earlier.issued_at if earlier is not None else utc_now().replace(microsecond=0)
+    require_role(session, signer.initials, "approver", key=signer.option, at=at)
+    person, key_row = signer_key(session, signer, at=at)
+    _check_issue_date(session, campaign, manifest, issue_date)
+    body = proof.build(
+        session,
+        campaign=campaign,
+        manifest=manifest,
+        report_number=report_number,
+        revision=revision,
+        issue_date=issue_date,
+        issuer=person,
+        issuer_key=key_row,
+        issued_at=at,
+    )
+    return IssuePlan(body, person, key_row, at)
+
+
 def record_issue(
     session: Session,
     *,
     campaign: CampaignRecord,
-    pdf_sha256: str,
-    report_number: str,
-    by: str,
-    issue_date: dt.date | None = None,
+    plan: IssuePlan,
+    base: bytes,
+    signer: Signer,
     printing: dict[str, str] | None = None,
-) -> ReportIssue | None:
-    """Keep the issued PDF's SHA-256 when the campaign is approved (drafts are not issued).
+) -> bytes:
+    """Sign and record the issue of the approved campaign's report; the issued file's bytes.
 
-    Refuses when the records differ from the approved manifest (naming them) and when the
-    revision was already issued with other bytes: one issued PDF per revision."""
+    ``base`` is the printed PDF with ``plan.proof`` embedded; the issued file is ``base``
+    followed by the tail carrying the issuer's signature (``proof.tail``). Refuses when the
+    records differ from the approved manifest (naming them) and when the revision was already
+    issued with other bytes: one issued PDF per revision."""
+    from testplan.store import proof
+
     manifest = approved_manifest(session, campaign.id)
-    if manifest is None:
-        return None
+    if manifest is None or manifest.root != plan.proof["manifest"]["root"]:
+        raise RecordError(
+            f"{campaign.reference} is no longer approved as printed; nothing was issued"
+        )
     changed = _differences(
         json.loads(manifest.body_json), compute_items(session, campaign), only_stored=False
     )
@@ -595,8 +692,9 @@ def record_issue(
             "nothing was issued",
             fix="run `testplan verify` on the last issued PDF and `testplan store check`",
         )
-    if issue_date is not None:
-        _check_issue_date(session, campaign, manifest, issue_date)
+    report = plan.proof["report"]
+    issue_date = dt.date.fromisoformat(report["issue_date"])
+    _check_issue_date(session, campaign, manifest, issue_date)
     approval = signatures_of(session, manifest)["approved"]
     approved_printing = json.loads(approval.context_json or "{}").get("printing")
     if printing is not None and approved_printing is not None:
@@ -610,7 +708,9 @@ def record_issue(
                 fix=f"issue it with testplan {approved_printing['tool_version']}, or amend "
                 "and approve again",
             )
-    revision = report_revision(session, campaign.id)
+    record, pdf = proof.sign_issue(signer.private_key, plan.proof, base)
+    pdf_sha256 = hashlib.sha256(pdf).hexdigest()
+    revision = int(report["revision"])
     earlier = session.exec(
         select(ReportIssue).where(
             ReportIssue.manifest_id == manifest.id, ReportIssue.revision == revision
@@ -618,29 +718,34 @@ def record_issue(
     ).first()
     if earlier is not None:
         if earlier.pdf_sha256 == pdf_sha256:
-            return earlier  # the same bytes printed again: one record
+            return pdf  # the same bytes printed again: one record
         when = earlier.issue_date or earlier.issued_at.date()
         raise RecordError(
-            f"{report_number} revision {revision} was issued on {when:%Y-%m-%d} as PDF "
+            f"{report['number']} revision {revision} was issued on {when:%Y-%m-%d} as PDF "
             f"SHA-256 {earlier.pdf_sha256[:16]}; this print differs, so it was not issued",
             key="--issue-date",
-            fix="print it again with the issue date and templates it was issued with, or "
-            f"`testplan amend {campaign.reference} --why ...` for a new revision",
+            fix="print it again with the issue date, templates and issuer it was issued "
+            f"with, or `testplan amend {campaign.reference} --why ...` for a new revision",
         )
     row = ReportIssue(
         campaign_id=campaign.id,
         manifest_id=manifest.id,
-        report_number=report_number,
+        report_number=report["number"],
         revision=revision,
         pdf_sha256=pdf_sha256,
-        issued_by=by,
+        issued_by=plan.person.initials,
+        issued_at=plan.issued_at,
         issue_date=issue_date,
+        person_id=plan.person.id,
+        key_id=plan.key.id,
+        signature=record["signature"],
+        base_sha256=record["base_sha256"],
     )
     session.add(row)
     session.flush()
     audit.append(
         session,
-        actor=by,
+        actor=actor_of(plan.person, plan.key),
         action="report.issue",
         entity="report_issue",
         entity_id=row.id,
@@ -650,9 +755,10 @@ def record_issue(
             "revision": row.revision,
             "root": manifest.root,
             "issue_date": issue_date,
+            "signature": record["signature"],
         },
     )
-    return row
+    return pdf
 
 
 @dataclass
@@ -667,6 +773,7 @@ def verify(
     pdf_sha256: str,
     claimed: dict[str, Any],
     trust: set[str] | None = None,
+    content: bytes = b"",
 ) -> Verification:
     """Check a PDF against the store: issued record, signatures, and the records themselves.
 
@@ -702,6 +809,8 @@ def verify(
         )
         if audit.entry_of(session, "report_issue", issue.id) is None:
             problems.append("the issue's audit entry is gone (the trail's tail was cut)")
+        if issue.signature is not None:
+            problems.extend(_issue_signature_problems(session, issue, content, anchor))
     if manifest is None:
         problems.append("no signed manifest in the store matches this report")
         return Verification(False, lines + [f"problem: {p}" for p in problems])
@@ -764,6 +873,42 @@ def verify(
     lines.append(f"manifest root {manifest.root} over {len(stored)} records")
     ok = not problems
     return Verification(ok, lines + [f"problem: {p}" for p in problems])
+
+
+def _issue_signature_problems(
+    session: Session, issue: ReportIssue, content: bytes, trust: Trust
+) -> list[str]:
+    """The issued file's signed tail against the issue record: the same signature over the
+    same base, made by an approver with their own key at the time of issue."""
+    from testplan.store import proof
+
+    try:
+        base, record = proof.split(content)
+        exact = record is not None and base + proof.tail(base, record) == content
+    except proof.NotAProofError:
+        record, exact = None, False
+    if record is None or record.get("signature") != issue.signature:
+        return ["the PDF's issue signature is not the one recorded"]
+    base_sha = hashlib.sha256(base).hexdigest()
+    if not exact or record.get("base_sha256") != base_sha or base_sha != issue.base_sha256:
+        return [
+            "the PDF was changed or added to after it was issued (its signed tail does not fit)"
+        ]
+    person = session.get(Person, issue.person_id)
+    key = session.get(PersonKey, issue.key_id)
+    if person is None or key is None:
+        return ["the issue's signer or key is no longer registered"]
+    problem = signature_problem(
+        session,
+        person=person,
+        key=key,
+        role="approver",
+        at=issue.issued_at,
+        message=proof.issue_message(record),
+        signature=issue.signature,
+        trust=Trust(trust.fingerprints),
+    )
+    return [f"issue signature of {person.initials}: {problem}"] if problem else []
 
 
 def _signature_problems(

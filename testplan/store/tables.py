@@ -508,7 +508,7 @@ class Amendment(SQLModel, table=True):
 
 
 class ReportIssue(SQLModel, table=True):
-    """A PDF issued for an approved manifest, by its SHA-256."""
+    """A PDF issued for an approved manifest, by its SHA-256, signed by who issued it."""
 
     __tablename__ = "report_issue"
     id: uuid.UUID = Field(default_factory=_id, primary_key=True)
@@ -520,6 +520,10 @@ class ReportIssue(SQLModel, table=True):
     issued_by: str
     issued_at: dt.datetime = Field(default_factory=utc_now, sa_type=UTCDateTime)
     issue_date: dt.date | None = None  # migration 0014
+    person_id: uuid.UUID | None = None  # migration 0017: who issued it, signed
+    key_id: uuid.UUID | None = None
+    signature: str | None = Field(default=None, max_length=128)
+    base_sha256: str | None = Field(default=None, max_length=64)
 
 
 # --- bench page logins (migration 0013) -------------------------------------------------

@@ -82,6 +82,8 @@ def signed(signed_template: tuple[str, Path, Roles | None], tmp_path: Path) -> I
     bench role, as a bench's own database user would."""
     url, pdf, roles = signed_template
     shutil.copy(pdf, tmp_path / pdf.name)
+    for key in pdf.parent.glob("*.pem*"):  # the signers' key files, to issue again
+        shutil.copy(key, tmp_path / key.name)
     if roles is None:
         source = Path(make_url(url).database or "")
         for f in _sqlite_files(source):

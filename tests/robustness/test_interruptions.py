@@ -137,7 +137,8 @@ def test_a_killed_import_leaves_all_or_nothing(bench: Bench) -> None:
 def test_a_killed_report_leaves_no_half_written_pdf(signed: Signed) -> None:
     bench = signed.bench
     out = bench.folder / "again.pdf"
-    args = ("report", "QC-2027-014", "-o", str(out), "--issue-date", "2027-02-01", "--quiet")
+    args = ("report", "QC-2027-014", "-o", str(out), "--issue-date", "2027-02-01",
+            *bench.signed("MO"), "--quiet")  # fmt: skip
     total = timed(bench, *args)
     pages = len(PdfReader(out).pages)
     out.unlink()

@@ -354,6 +354,14 @@ def record_and_judge(
     return bench
 
 
+# Sign-off after the fixtures' data checks (2027-01-16), in role order.
+SIGNED_AT = {
+    "prepared": "2027-01-20T10:00Z",
+    "reviewed": "2027-01-20T11:00Z",
+    "approved": "2027-01-20T12:00Z",
+}
+
+
 def sign(b: Bench, role: str, who: str, key: str | None = None) -> list[str]:
     return [
         "sign",
@@ -364,7 +372,14 @@ def sign(b: Bench, role: str, who: str, key: str | None = None) -> list[str]:
         who,
         "--key",
         str(b.folder / f"{key or who}.pem"),
+        *(["--at", SIGNED_AT[role]] if role in SIGNED_AT else []),
     ]
+
+
+def issue(b: Bench, pdf: Path, *more: str, by: str = "MO") -> None:
+    """``testplan report`` of the approved campaign, issued by ``by``."""
+    b("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01", *b.signed(by),
+      *more, "--quiet")  # fmt: skip
 
 
 def approve_and_issue(b: Bench, name: str = "report.pdf") -> Path:
@@ -372,7 +387,7 @@ def approve_and_issue(b: Bench, name: str = "report.pdf") -> Path:
     b(*sign(b, "reviewed", "LV"), "--quiet")
     b(*sign(b, "approved", "MO"), "--quiet")
     pdf = b.folder / name
-    b("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01", "--quiet")
+    issue(b, pdf)
     return pdf
 
 

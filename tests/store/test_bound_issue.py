@@ -164,7 +164,7 @@ def test_sign_off_refuses_a_judgement_older_than_the_evidence(
 
 
 def issue(b: Bench, *extra: str, ok: bool = True, name: str = "again.pdf"):  # type: ignore[no-untyped-def]
-    return b("report", "QC-2027-014", "-o", str(b.folder / name), *extra, ok=ok)
+    return b("report", "QC-2027-014", "-o", str(b.folder / name), *b.signed("MO"), *extra, ok=ok)
 
 
 def test_an_issued_revision_prints_once(judged: Bench) -> None:
@@ -175,8 +175,9 @@ def test_an_issued_revision_prints_once(judged: Bench) -> None:
     assert "issued TR-QC-2027-014 revision 1" in again.stderr
     assert judged.sql("SELECT count(*) FROM report_issue") == [(1,)]
     line = judged.fail(
-        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", "2027-02-02"
-    )
+        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", "2027-02-02",
+        *judged.signed("MO"),
+    )  # fmt: skip
     assert line.startswith("error: --issue-date: ")
     assert "revision 1 was issued on 2027-02-01 as PDF SHA-256 " in line
     assert not (judged.folder / "x.pdf").exists()
@@ -206,7 +207,10 @@ def test_report_refuses_to_issue_changed_records(judged: Bench) -> None:
     judged(*sign(judged, "approved", "MO"), "--quiet")
     if not tamper(judged, "UPDATE verdict SET outcome = 'pass'"):
         return
-    line = judged.fail("report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"))
+    line = judged.fail(
+        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", "2027-02-01",
+        *judged.signed("MO"),
+    )  # fmt: skip
     assert line.startswith(
         "error: QC-2027-014: the records differ from the approved manifest (verdict "
     )
@@ -223,9 +227,10 @@ def test_a_date_of_issue_before_the_approval_or_the_tests_is_refused(
     for role, who in (("prepared", "RP"), ("reviewed", "LV"), ("approved", "MO")):
         judged(*sign(judged, role, who), "--quiet")
     line = judged.fail(
-        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", day
-    )
-    # the approval is dated today; the run's data check 2027-01-16 09:00 UTC
+        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", day,
+        *judged.signed("MO"),
+    )  # fmt: skip
+    # the approval is dated 2027-01-20; the run's data check 2027-01-16 09:00 UTC
     assert line.startswith(f"error: --issue-date: date of issue {day} is before the campaign's ")
     assert "; nothing was issued (give --issue-date " in line
     assert judged.sql("SELECT count(*) FROM report_issue") == [(0,)]
@@ -247,8 +252,9 @@ def test_the_approval_covers_the_template_set_that_prints(
     assert json.loads(context)["printing"]["templates_sha256"] == render.templates_sha256()
     monkeypatch.setattr(render, "templates_sha256", lambda override=None: "f" * 64)
     line = judged.fail(
-        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", "2027-02-01"
-    )
+        "report", "QC-2027-014", "-o", str(judged.folder / "x.pdf"), "--issue-date", "2027-02-01",
+        *judged.signed("MO"),
+    )  # fmt: skip
     assert line.startswith("error: QC-2027-014 was approved for printing with testplan ")
     assert "; these are ffffffffffffffff (testplan " in line
     assert judged.sql("SELECT count(*) FROM report_issue") == [(0,)]

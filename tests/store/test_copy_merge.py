@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from .conftest import PG_URL, START, Bench, fresh_postgres_database
+from .conftest import PG_URL, START, Bench, fresh_postgres_database, issue, sign
 from .test_signoff import approve_and_issue, judged  # noqa: F401  (fixture)
 
 RUN_A = "water-6@ip-verification-1"
@@ -54,7 +54,7 @@ def test_two_bench_stores_merge_into_the_lab_store(bench: Bench, tmp_path: Path)
     bench("judge", "--quiet", ok=False)
     sign_off(bench, tmp_path)
     pdf = tmp_path / "merged.pdf"
-    bench("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01", "--quiet")
+    issue(bench, pdf)
     assert "verified" in bench("verify", str(pdf)).stdout
 
 
@@ -64,7 +64,7 @@ def sign_off(b: Bench, folder: Path) -> None:
         b.add(who, who, role)
         b.enrol(who)
     for who, role in (("RP", "prepared"), ("LV", "reviewed"), ("MO", "approved")):
-        b("sign", "QC-2027-014", "--role", role, "--as", who, "--key", b.key(who), "--quiet")
+        b(*sign(b, role, who), "--quiet")
 
 
 def test_a_run_recorded_at_two_benches_is_a_conflict(bench: Bench, tmp_path: Path) -> None:

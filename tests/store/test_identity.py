@@ -335,13 +335,20 @@ def test_a_key_inserted_by_sql_fails_verify_naming_key_and_person(judged: Bench)
     try:
         store.write(
             lambda s: signoff.sign(
-                s, campaign="QC-2027-014", role="approved", signer=identity.Signer("MO", private)
+                s,
+                campaign="QC-2027-014",
+                role="approved",
+                signer=identity.Signer("MO", private),
+                at=dt.datetime(2027, 1, 20, 12, tzinfo=dt.UTC),
             )
         )
     finally:
         store.engine.dispose()
     pdf = judged.folder / "r.pdf"
-    judged("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01", "--quiet")
+    slipped = judged.folder / "slipped.pem"
+    slipped.write_bytes(pem)
+    judged("report", "QC-2027-014", "-o", str(pdf), "--issue-date", "2027-02-01",
+           "--by", "MO", "--key", str(slipped), "--quiet")  # fmt: skip
     found = problems(judged, str(pdf), "--trust", anchor)
     assert f"approved signature of MO: key {fp[:16]} of MO: no proof that its holder made it" in (
         found
@@ -350,10 +357,15 @@ def test_a_key_inserted_by_sql_fails_verify_naming_key_and_person(judged: Bench)
 
 
 def test_a_report_signed_before_a_later_grant_or_revocation_still_verifies(
-    judged: Bench,
+    judged: Bench, monkeypatch: pytest.MonkeyPatch
 ) -> None:
-    pdf = approve_and_issue(judged)
+    pdf = approve_and_issue(judged)  # signed on 2027-01-20
     anchor = trust_file(judged)
+    # the grant, withdrawal and revocation come later than the signatures
+    from testplan.store import identity
+
+    later = dt.datetime(2027, 3, 1, tzinfo=dt.UTC)
+    monkeypatch.setattr(identity, "utc_now", lambda: later)
     judged("people", "grant", "AK", "--role", "checker", "--why", "trained",
            *judged.signed(MANAGER), "--quiet")  # fmt: skip
     judged("people", "withdraw", "MO", "--role", "approver", "--why", "left",
