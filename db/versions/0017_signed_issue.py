@@ -31,6 +31,7 @@ def upgrade() -> None:
 
 
 def downgrade() -> None:
-    with op.batch_alter_table("report_issue", schema=None) as batch_op:
-        for name in ("base_sha256", "signature", "key_id", "person_id"):
-            batch_op.drop_column(name)
+    # Plain DROP COLUMN on both engines: a batch rebuild would drop the table's append-only
+    # triggers (migration 0016) on SQLite.
+    for name in ("base_sha256", "signature", "key_id", "person_id"):
+        op.execute(f"ALTER TABLE report_issue DROP COLUMN {name}")

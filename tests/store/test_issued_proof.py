@@ -304,7 +304,7 @@ def test_a_changed_pdf_with_its_recorded_hash_rewritten_is_refused_or_named(
     forged.write_bytes(new_base + P.tail(new_base, record))
     sha = hashlib.sha256(forged.read_bytes()).hexdigest()
     try:
-        b.raw("UPDATE report_issue SET pdf_sha256 = :s", s=sha)
+        b.tamper("UPDATE report_issue SET pdf_sha256 = :s", s=sha)
     except sa.exc.DBAPIError as err:  # PostgreSQL: issue records are append-only
         assert b.url.startswith("postgresql"), err
         assert "report_issue" in str(err.orig), err

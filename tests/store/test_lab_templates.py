@@ -40,7 +40,7 @@ def approve(b: Bench, *extra: str, ok: bool = True):  # type: ignore[no-untyped-
 
 def issue(b: Bench, *extra: str) -> list[str]:
     return ["report", "QC-2027-014", "-o", str(b.folder / "r.pdf"), "--issue-date",
-            "2027-02-01", "--quiet", *extra]  # fmt: skip
+            "2027-02-01", *b.signed("MO"), "--quiet", *extra]  # fmt: skip
 
 
 def test_a_registered_set_is_approved_and_issued(judged: Bench) -> None:
