@@ -42,6 +42,9 @@ FIELD_OF = {
     "--state-differs": "checklist",
     "--operator": "form",
     "--by": "form",
+    "--as": "form",
+    "--role": "role",
+    "INITIALS": "initials",
     "--map": "map",
     "--tz": "tz",
     "--at": "form",
@@ -96,7 +99,7 @@ class BenchApp:
     # --- plumbing --------------------------------------------------------------------
 
     def render(
-        self, request: Request, name: str, context: dict[str, Any], status: int = 200
+        self, request: Request | None, name: str, context: dict[str, Any], status: int = 200
     ) -> HTMLResponse:
         page = self.env.get_template(f"web/{name}.html.j2").render(
             me=context.pop("me", None), errors=context.pop("errors", {}), **context
@@ -120,6 +123,7 @@ class BenchApp:
             if write:
                 form = await self.form(request)
                 if not security.csrf_ok(me, form.get("csrf")):
+                    await self.close_form(request)
                     return HTMLResponse("this form has expired; reload the page", status_code=403)
                 request.state.form = form
             try:
@@ -296,21 +300,16 @@ class BenchApp:
         """The data check: a signed act, so it asks for the checker's own key and passphrase.
         Refused, with the criterion named beside the button, while a failed condition is
         neither covered by an approved deviation nor the run invalidated."""
-        from testplan.keys import load_private_bytes
         from testplan.store import judging, records
         from testplan.store.identity import Signer
 
         key = request.path_params["key"]
         form = request.state.form
-        upload = form.get("key_file")
         note = _text(form, "note").strip() or None
-        if not isinstance(upload, UploadFile) or not upload.filename:
-            return await self.run_page(request, me, {"key": "choose your key file"}, 400)
-        data = await upload.read(64 * 1024)
         try:
-            private = load_private_bytes(data, _text(form, "passphrase"), Path("key file"))
+            private = await _private_key(form)
         except TestplanError as err:
-            return await self.run_page(request, me, {"key": _message(err)}, 400)
+            return await self.run_page(request, me, {"key": err.message}, 400)
 
         def unit(session: Session) -> None:
             run = records.find_run(session, key)
@@ -578,6 +577,108 @@ class BenchApp:
         request.state.form = None
         return await self.run_page(request, me, notes=[f"{n} observation(s) recorded"])
 
+    # --- sign-off and people -----------------------------------------------------------
+
+    def page(
+        self,
+        me: BenchSession,
+        name: str,
+        read: Callable[[Session], dict[str, Any]],
+        errors: dict[str, str] | None,
+        status: int,
+        notes: list[str] | None,
+    ) -> Response:
+        """A page read from the store by ``read`` with its errors and notes; a missing
+        record named in the path gives the "missing" page (404)."""
+        try:
+            with self.store.reading() as session:
+                context = read(session)
+        except TestplanError as err:
+            return self.render(None, "missing", self.base(me, message=_message(err)), 404)
+        extra = {"errors": errors or {}, "notes": notes or []}
+        return self.render(None, name, self.base(me, **extra, **context), status)
+
+    async def signoff_page(
+        self,
+        request: Request,
+        me: BenchSession,
+        errors: dict[str, str] | None = None,
+        status: int = 200,
+        notes: list[str] | None = None,
+    ) -> Response:
+        from testplan.web import views
+
+        ref = request.path_params["ref"]
+        return self.page(me, "signoff", lambda s: views.signoff(s, ref), errors, status, notes)
+
+    async def sign(self, request: Request, me: BenchSession) -> Response:
+        """Sign the campaign in a role, as ``testplan sign`` does: the logged-in person's own
+        key and passphrase, given now and used only in memory; roles as granted now."""
+        from testplan import __version__
+        from testplan.report.render import templates_sha256
+        from testplan.store import signoff
+        from testplan.store.identity import Signer
+
+        ref = request.path_params["ref"]
+        form = request.state.form
+        role = _text(form, "role")
+        try:
+            private = await _private_key(form)
+        except TestplanError as err:
+            return await self.signoff_page(request, me, {"key": err.message}, 400)
+        printing = {"tool_version": __version__, "templates_sha256": templates_sha256()}
+
+        def unit(session: Session) -> Any:
+            signer = Signer(me.initials, private, option="--as")
+            return signoff.sign(session, campaign=ref, role=role, signer=signer, printing=printing)
+
+        done, errors = self.act(request, unit)
+        if errors:
+            return await self.signoff_page(request, me, errors, 400)
+        locked = "; the campaign is now locked" if done.role == "approved" else ""
+        said = f"{done.role} by {done.initials}, manifest root {done.root}{locked}"
+        return await self.signoff_page(request, me, notes=[said])
+
+    async def people_page(
+        self,
+        request: Request,
+        me: BenchSession,
+        errors: dict[str, str] | None = None,
+        status: int = 200,
+        notes: list[str] | None = None,
+    ) -> Response:
+        from testplan.web import views
+
+        return self.page(me, "people", views.people, errors, status, notes)
+
+    async def set_password(self, request: Request, me: BenchSession) -> Response:
+        """Set a person's password, as ``people password`` does: signed with the logged-in
+        manager's own key and passphrase, given now."""
+        from testplan.store import logins
+        from testplan.store.identity import Signer
+
+        form = request.state.form
+        initials, password = _text(form, "initials"), _text(form, "password")
+        if password != _text(form, "password_again"):
+            return await self.people_page(
+                request, me, {"password": "the two passwords differ"}, 400
+            )
+        try:
+            private = await _private_key(form)
+        except TestplanError as err:
+            return await self.people_page(request, me, {"key": err.message}, 400)
+
+        def unit(session: Session) -> Any:
+            signer = Signer(me.initials, private)
+            return logins.set_password(session, initials=initials, password=password, by=signer)
+
+        person, errors = self.act(request, unit)
+        if errors:
+            return await self.people_page(request, me, errors, 400)
+        return await self.people_page(
+            request, me, notes=[f"{person.initials}: password set, signed by {me.initials}"]
+        )
+
     # --- results and live ------------------------------------------------------------
 
     async def results(self, request: Request, me: BenchSession) -> Response:
@@ -668,6 +769,22 @@ def _start_sheet(form: FormData, operator: str, checklist: list[str]) -> Any:
     )
 
 
+async def _private_key(form: FormData, field: str = "key_file", phrase: str = "passphrase") -> Any:
+    """The private key uploaded in ``field``, opened in memory with the passphrase in
+    ``phrase`` (never written anywhere). Raises TestplanError (key "key") when no file was
+    chosen or it does not open."""
+    from testplan.keys import load_private_bytes
+
+    upload = form.get(field)
+    if not isinstance(upload, UploadFile) or not upload.filename:
+        raise TestplanError("choose your key file", key="key")
+    data = await upload.read(64 * 1024)
+    try:
+        return load_private_bytes(data, _text(form, phrase), Path("key file"))
+    except TestplanError as err:
+        raise TestplanError(_message(err), key="key") from None
+
+
 def _text(form: FormData | None, name: str) -> str:
     value = form.get(name) if form is not None else None
     return value if isinstance(value, str) else ""
@@ -724,6 +841,10 @@ def make_app(
         Route("/run/{key}/logger/{token}", g(bench.logger_import, write=True), methods=["POST"]),
         Route("/run/{key}/results", g(bench.results, write=False), methods=["GET"]),
         Route("/run/{key}/live", g(bench.live, write=False), methods=["GET"]),
+        Route("/campaign/{ref}/signoff", g(bench.signoff_page, write=False), methods=["GET"]),
+        Route("/campaign/{ref}/signoff", g(bench.sign, write=True), methods=["POST"]),
+        Route("/people", g(bench.people_page, write=False), methods=["GET"]),
+        Route("/people/password", g(bench.set_password, write=True), methods=["POST"]),
     ]
     app = Starlette(routes=routes)
     app.state.bench = bench
