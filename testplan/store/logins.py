@@ -23,6 +23,8 @@ from testplan.store.identity import (
     act_message,
     actor_of,
     find_person,
+    key_active_at,
+    key_problem,
     require_role,
     signature_problem,
     signer_key,
@@ -48,10 +50,13 @@ MAX_WAIT_S = 300.0
 PASSWORD_ACT = "person.password"
 
 
-def password_message(person: str, hash_sha256: str, at: dt.datetime, by: str, by_key: str) -> bytes:
-    """What a manager signs to set a person's password: the SHA-256 of its argon2id hash."""
+def password_message(
+    person: str, hash_sha256: str, at: dt.datetime, by: str, by_key: str, *, own: bool = False
+) -> bytes:
+    """What a manager signs to set a person's password, or the person to change their own
+    (``own``): the SHA-256 of its argon2id hash."""
     return act_message(
-        "person.password",
+        "person.password.own" if own else "person.password",
         {
             "person": person,
             "hash_sha256": hash_sha256,
@@ -75,11 +80,7 @@ def set_password(session: Session, *, initials: str, password: str, by: Signer) 
     from argon2 import PasswordHasher
 
     person = find_person(session, initials, key="INITIALS")
-    if len(password) < MIN_PASSWORD:
-        raise RecordError(
-            f"the password has {len(password)} characters; at least {MIN_PASSWORD} are needed",
-            key="password",
-        )
+    _check_length(password)
     at = utc_now()
     hashed = PasswordHasher().hash(password)
     digest = hashlib.sha256(hashed.encode()).hexdigest()
@@ -87,6 +88,61 @@ def set_password(session: Session, *, initials: str, password: str, by: Signer) 
     setter, key = signer_key(session, by)
     message = password_message(person.initials, digest, at, setter.initials, key.fingerprint)
     signature = keys.sign(by.private_key, message)
+    _store(session, person, hashed, at, setter, key, signature, own=False)
+    return person
+
+
+def change_own_password(session: Session, *, signer: Signer, old: str, new: str) -> Person:
+    """Change the signer's own password: they give the old one and sign the new hash with
+    their own active key (so the change stands at login like a manager's).
+
+    Raises RecordError when the old password is wrong (key "old_password"), the new one is
+    shorter than MIN_PASSWORD, or the key is not the signer's own active key.
+    """
+    from argon2 import PasswordHasher
+    from argon2.exceptions import InvalidHashError, VerificationError
+
+    person = find_person(session, signer.initials, key=signer.option)
+    row = session.get(PersonPassword, person.id)
+    try:
+        known = row is not None and PasswordHasher().verify(row.hash, old)
+    except (VerificationError, InvalidHashError):
+        known = False
+    if not known:
+        raise RecordError("that is not your present password", key="old_password")
+    _check_length(new)
+    person, key = signer_key(session, signer)
+    at = utc_now()
+    hashed = PasswordHasher().hash(new)
+    digest = hashlib.sha256(hashed.encode()).hexdigest()
+    message = password_message(person.initials, digest, at, person.initials, key.fingerprint,
+                               own=True)  # fmt: skip
+    _store(
+        session, person, hashed, at, person, key, keys.sign(signer.private_key, message), own=True
+    )
+    return person
+
+
+def _check_length(password: str) -> None:
+    if len(password) < MIN_PASSWORD:
+        raise RecordError(
+            f"the password has {len(password)} characters; at least {MIN_PASSWORD} are needed",
+            key="password",
+        )
+
+
+def _store(
+    session: Session,
+    person: Person,
+    hashed: str,
+    at: dt.datetime,
+    setter: Person,
+    key: PersonKey,
+    signature: str,
+    *,
+    own: bool,
+) -> None:
+    """Keep the hash and its signed audit entry (what ``password_problem`` checks)."""
     row = session.get(PersonPassword, person.id)
     replaced = row is not None
     if row is None:
@@ -103,19 +159,20 @@ def set_password(session: Session, *, initials: str, password: str, by: Signer) 
         new={
             "initials": person.initials,
             "replaced": replaced,
-            "hash_sha256": digest,
+            "own": own,
+            "hash_sha256": hashlib.sha256(hashed.encode()).hexdigest(),
             "at": at.astimezone(dt.UTC).isoformat(),
             "by": setter.initials,
             "fingerprint": key.fingerprint,
             "signature": signature,
         },
     )
-    return person
 
 
 def password_problem(session: Session, person: Person, row: PersonPassword) -> str | None:
-    """Why ``row`` is not a password a manager set (None when it is): the latest password
-    entry in the audit trail must name this hash and carry a manager's standing signature."""
+    """Why ``row`` is not a password set by a manager or changed by the person (None when
+    it is): the latest password entry in the audit trail must name this hash and carry a
+    standing signature, a manager's or, for an own change, the person's."""
     entry = session.exec(
         select(AuditEntry)
         .where(
@@ -129,7 +186,7 @@ def password_problem(session: Session, person: Person, row: PersonPassword) -> s
     if "signature" not in signed:
         return "its password was set without a manager's signature"
     if signed.get("hash_sha256") != hashlib.sha256(row.hash.encode()).hexdigest():
-        return "its stored password is not the one a manager signed"
+        return "its stored password is not the one signed for it"
     setter = session.exec(select(Person).where(Person.initials == signed["by"])).first()
     key = session.exec(
         select(PersonKey).where(PersonKey.fingerprint == signed["fingerprint"])
@@ -137,8 +194,17 @@ def password_problem(session: Session, person: Person, row: PersonPassword) -> s
     if setter is None or key is None:
         return "its password's signer is not in the store"
     at = dt.datetime.fromisoformat(signed["at"])
+    own = bool(signed.get("own"))
     message = password_message(person.initials, signed["hash_sha256"], at, setter.initials,
-                               key.fingerprint)  # fmt: skip
+                               key.fingerprint, own=own)  # fmt: skip
+    if own:  # the person's own change: their own key, active then, enrolled through managers
+        if setter.id != person.id or key.person_id != person.id:
+            return "its password's change is not signed by the person"
+        if not keys.verify(key.public_key, message, signed["signature"]):
+            return "its password's signature does not verify"
+        if not key_active_at(session, key, at):
+            return "its password was changed with a key not active then"
+        return key_problem(session, key, Trust(None))
     return signature_problem(
         session,
         person=setter,

@@ -45,6 +45,7 @@ FIELD_OF = {
     "--as": "form",
     "--role": "role",
     "INITIALS": "initials",
+    "old_password": "old_password",
     "--map": "map",
     "--tz": "tz",
     "--at": "form",
@@ -679,6 +680,36 @@ class BenchApp:
             request, me, notes=[f"{person.initials}: password set, signed by {me.initials}"]
         )
 
+    async def own_password(self, request: Request, me: BenchSession) -> Response:
+        """Change one's own password: the present one, and one's own key and passphrase."""
+        from testplan.store import logins
+        from testplan.store.identity import Signer
+
+        form = request.state.form
+        new = _text(form, "new_password")
+        if new != _text(form, "new_password_again"):
+            return await self.people_page(
+                request, me, {"new_password": "the two passwords differ"}, 400
+            )
+        try:
+            private = await _private_key(form, "own_key_file", "own_passphrase")
+        except TestplanError as err:
+            return await self.people_page(request, me, {"own_key": err.message}, 400)
+
+        def unit(session: Session) -> Any:
+            old = _text(form, "old_password")
+            return logins.change_own_password(
+                session, signer=Signer(me.initials, private), old=old, new=new
+            )
+
+        _, errors = self.act(request, unit)
+        if errors:
+            for mine, field in (("password", "new_password"), ("key", "own_key")):
+                if mine in errors:
+                    errors[field] = errors.pop(mine)
+            return await self.people_page(request, me, errors, 400)
+        return await self.people_page(request, me, notes=["your password is changed"])
+
     # --- results and live ------------------------------------------------------------
 
     async def results(self, request: Request, me: BenchSession) -> Response:
@@ -845,6 +876,7 @@ def make_app(
         Route("/campaign/{ref}/signoff", g(bench.sign, write=True), methods=["POST"]),
         Route("/people", g(bench.people_page, write=False), methods=["GET"]),
         Route("/people/password", g(bench.set_password, write=True), methods=["POST"]),
+        Route("/people/own-password", g(bench.own_password, write=True), methods=["POST"]),
     ]
     app = Starlette(routes=routes)
     app.state.bench = bench

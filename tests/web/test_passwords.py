@@ -110,7 +110,7 @@ def test_a_hash_written_behind_the_tool_logs_nobody_in(bench: Bench, client: Tes
         "(SELECT id FROM person WHERE initials = 'AK')"
     )
     code, text = logs_in(client, "AK", PASSWORDS["JT"])
-    assert code == 401 and "not the one a manager signed" in text
+    assert code == 401 and "not the one signed for it" in text
     # or writes a hash of their own for the manager, who has no password
     bench.raw(
         "INSERT INTO person_password (person_id, hash, set_by, set_at) SELECT id, :h, 'QM', "
@@ -176,3 +176,54 @@ def test_an_operator_cannot_set_a_password_on_the_page(bench: Bench, client: Tes
     refused = page_set(client, bench, csrf, "AK")
     assert refused.startswith("400 ") and "Anna Kowal (AK) is not authorised as manager" in refused
     assert password_rows(bench) == before and audit_count(bench) == entries
+
+
+def change_own(client: TestClient, bench: Bench, csrf: str, key_of: str, **form: str) -> str:
+    data = {
+        "csrf": csrf,
+        "old_password": PASSWORDS["AK"],
+        "new_password": NEW,
+        "new_password_again": NEW,
+        "own_passphrase": PASS,
+        **form,
+    }
+    reply = client.post(
+        "/people/own-password",
+        data=data,
+        files={"own_key_file": ("k.pem", Path(bench.key(key_of)).read_bytes(), "text/plain")},
+    )
+    return f"{reply.status_code} {reply.text}"
+
+
+def test_a_person_changes_their_own_password_with_the_old_one_and_their_key(
+    bench: Bench, client: TestClient
+) -> None:
+    assert logs_in(client, "AK", PASSWORDS["AK"])[0] == 303
+    csrf = csrf_of(client.get("/people").text)
+    before, entries = password_rows(bench), audit_count(bench)
+    refused = change_own(client, bench, csrf, "AK", old_password="a guess at it")
+    assert refused.startswith("400 ") and 'id="old_password-error"' in refused
+    refused = change_own(client, bench, csrf, "JT")  # someone else's key
+    assert refused.startswith("400 ") and 'id="own_key-error"' in refused
+    assert "is the key of Jo Tran (JT), not of Anna Kowal (AK)" in refused
+    refused = change_own(
+        client, bench, csrf, "AK", new_password="short", new_password_again="short"
+    )
+    assert refused.startswith("400 ") and 'id="new_password-error"' in refused
+    assert password_rows(bench) == before and audit_count(bench) == entries
+
+    assert change_own(client, bench, csrf, "AK").startswith("200 ")
+    (new,) = bench.sql("SELECT new_json FROM audit ORDER BY at DESC, seq DESC")[0]
+    assert json.loads(new)["own"] is True and json.loads(new)["by"] == "AK"
+    client.post("/logout", data={"csrf": csrf})
+    assert logs_in(client, "AK", PASSWORDS["AK"])[0] == 401
+    assert logs_in(client, "AK", NEW)[0] == 303
+    # a hash copied onto AK behind the tool still logs nobody in
+    bench.raw(
+        "UPDATE person_password SET hash = (SELECT w.hash FROM person_password w JOIN person p "
+        "ON p.id = w.person_id WHERE p.initials = 'JT') WHERE person_id = "
+        "(SELECT id FROM person WHERE initials = 'AK')"
+    )
+    client.cookies.clear()
+    code, text = logs_in(client, "AK", PASSWORDS["JT"])
+    assert code == 401 and "not the one signed for it" in text

@@ -33,6 +33,7 @@ POSTS = [
     f"/run/{RUN}/logger/" + "0" * 32,
     "/campaign/QC-2027-014/signoff",
     "/people/password",
+    "/people/own-password",
 ]
 
 
