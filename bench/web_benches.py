@@ -167,7 +167,10 @@ def main() -> int:
             th.join()
         load_s = time.perf_counter() - t
         if errors:
-            raise SystemExit(f"a bench failed: {errors[0]!r}")
+            server.terminate()
+            _, said = server.communicate(timeout=10)
+            tail = "\n".join(said.decode(errors="replace").splitlines()[-30:])
+            raise SystemExit(f"a bench failed: {errors[0]!r}\nthe server said:\n{tail}")
         samples = ROWS // 2  # two of the four channels are mapped
         p95 = statistics.quantiles(pages, n=20)[-1] if len(pages) >= 20 else max(pages)
         web_rate = len(imports) * samples / load_s

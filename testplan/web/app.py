@@ -10,12 +10,14 @@ import json
 import secrets
 import shutil
 import tempfile
+import threading
 import time
 from collections.abc import Awaitable, Callable
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, TypeVar
 
 from starlette.applications import Starlette
+from starlette.concurrency import run_in_threadpool
 from starlette.datastructures import FormData, UploadFile
 from starlette.requests import Request
 from starlette.responses import HTMLResponse, RedirectResponse, Response
@@ -30,6 +32,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
     from testplan.store.engine import Store
 
+T = TypeVar("T")
 Handler = Callable[[Request, BenchSession], Awaitable[Response]]
 
 # Where a store or CLI error key belongs on the page's forms.
@@ -96,6 +99,8 @@ class BenchApp:
         self.sessions = Sessions(idle_minutes * 60, clock)
         self.env = environment()
         self.uploads = upload_dir or Path(tempfile.mkdtemp(prefix="testplan-uploads-"))
+        sqlite = store.dialect == "sqlite"
+        self.write_lock: threading.Lock | None = threading.Lock() if sqlite else None
 
     # --- plumbing --------------------------------------------------------------------
 
@@ -203,7 +208,7 @@ class BenchApp:
             roles = frozenset(identity.roles_of(session, got)) if isinstance(got, Person) else None
             return got, roles or frozenset()
 
-        got, roles = self.store.write(unit)
+        got, roles = await run_in_threadpool(self.write, unit)
         if isinstance(got, str):
             return self._login_form(request, {"key" if by_key else "password": got}, status=401)
         response = RedirectResponse("/", status_code=303)
@@ -221,8 +226,7 @@ class BenchApp:
     async def today(self, request: Request, me: BenchSession) -> Response:
         from testplan.web import views
 
-        with self.store.reading() as session:
-            context = views.today(session)
+        context = await self.read(views.today)
         return self.render(request, "today", self.base(me, **context))
 
     async def run_page(
@@ -237,8 +241,7 @@ class BenchApp:
 
         key = request.path_params["key"]
         try:
-            with self.store.reading() as session:
-                context = views.run(session, key)
+            context = await self.read(lambda session: views.run(session, key))
         except TestplanError as err:
             return self.render(request, "missing", self.base(me, message=_message(err)), 404)
         form = getattr(request.state, "form", None)
@@ -249,12 +252,32 @@ class BenchApp:
             status,
         )
 
-    def act(self, request: Request, unit: Callable[[Session], Any]) -> tuple[Any, dict[str, str]]:
-        """Run one unit of work; a refusal comes back as {field: message}, nothing stored."""
+    async def act(
+        self, request: Request, unit: Callable[[Session], Any]
+    ) -> tuple[Any, dict[str, str]]:
+        """Run one unit of work in a worker thread (the event loop goes on serving other
+        benches' pages meanwhile); a refusal comes back as {field: message}, nothing stored."""
         try:
-            return self.store.write(unit), {}
+            return await run_in_threadpool(self.write, unit), {}
         except TestplanError as err:
             return None, {_field(err): _message(err)}
+
+    def write(self, unit: Callable[[Session], T]) -> T:
+        """``store.write`` from a worker thread. On SQLite one writer at a time queues on a
+        lock here instead of on the file's busy timeout (its writes queue anyway)."""
+        if self.write_lock is None:
+            return self.store.write(unit)
+        with self.write_lock:
+            return self.store.write(unit)
+
+    async def read(self, view: Callable[[Session], T]) -> T:
+        """What ``view`` reads from the store, in a worker thread, like ``act``."""
+
+        def run() -> T:
+            with self.store.reading() as session:
+                return view(session)
+
+        return await run_in_threadpool(run)
 
     async def start(self, request: Request, me: BenchSession) -> Response:
         from testplan.store import records
@@ -262,7 +285,8 @@ class BenchApp:
         key = request.path_params["key"]
         form = await self.form(request)
         try:
-            sheet = _start_sheet(form, me.initials, self._checklist(key))
+            checklist = await self.read(lambda session: _checklist(session, key))
+            sheet = _start_sheet(form, me.initials, checklist)
         except TestplanError as err:
             return await self.run_page(request, me, {_field(err): _message(err)}, 400)
 
@@ -270,17 +294,10 @@ class BenchApp:
             run = records.find_run(session, key)
             return records.start_run(session, run=run, sheet=sheet)
 
-        warnings, errors = self.act(request, unit)
+        warnings, errors = await self.act(request, unit)
         if errors:
             return await self.run_page(request, me, errors, 400)
         return await self.run_page(request, me, notes=["run started", *warnings])
-
-    def _checklist(self, key: str) -> list[str]:
-        from testplan.store import records
-
-        with self.store.reading() as session:
-            run = records.find_run(session, key)
-            return list(records.run_procedure(session, run).get("specimen_state", []))
 
     async def finish(self, request: Request, me: BenchSession) -> Response:
         from testplan.store import records
@@ -292,7 +309,7 @@ class BenchApp:
             run = records.find_run(session, key)
             records.finish_run(session, run=run, by=me.initials, at=None, note=note)
 
-        _, errors = self.act(request, unit)
+        _, errors = await self.act(request, unit)
         return await self.run_page(
             request, me, errors, 400 if errors else 200, [] if errors else ["run finished"]
         )
@@ -317,7 +334,7 @@ class BenchApp:
             records.check_run(session, run=run, by=Signer(me.initials, private), note=note)
             judging.require_disposition(session, run, actor=me.initials)  # else rolled back
 
-        _, errors = self.act(request, unit)
+        _, errors = await self.act(request, unit)
         if "RUN" in errors:  # a failed condition not dispositioned: shown at the check
             errors["check"] = errors.pop("RUN")
         return await self.run_page(
@@ -357,7 +374,7 @@ class BenchApp:
                 covers=_text(form, "covers").strip() or None,
             )
 
-        _, errors = self.act(request, unit)
+        _, errors = await self.act(request, unit)
         if errors:
             if "key" in errors:  # the approver's key, not the logged-in person's
                 errors["approver_key"] = errors.pop("key")
@@ -416,14 +433,17 @@ class BenchApp:
         errors = dict(errors or {})
         preview = None
         try:
-            preview = preview_logger_bytes(
-                _head_of(path), meta["name"], _read_options(meta["options"], [])
+            preview = await run_in_threadpool(
+                preview_logger_bytes,
+                _head_of(path),
+                meta["name"],
+                _read_options(meta["options"], []),
             )
         except TestplanError as err:
             errors["file"] = _message(err)
-        with self.store.reading() as session:
-            equipment = views.run_equipment_tags(session, meta["run"])
-            specimens = views.run_serials(session, meta["run"])
+        equipment, specimens = await self.read(
+            lambda s: (views.run_equipment_tags(s, meta["run"]), views.run_serials(s, meta["run"]))
+        )
         return self.render(
             request,
             "preview",
@@ -470,8 +490,12 @@ class BenchApp:
             return await self.logger_preview(request, me, {"map": "pick at least one channel"}, 400)
         try:
             options: ReadOptions = _read_options(meta["options"], [], skipped)
-            data = read_logger_bytes(
-                path.read_bytes(), meta["name"], [parse_map(m) for m in maps], options
+            data = await run_in_threadpool(
+                read_logger_bytes,
+                path.read_bytes(),
+                meta["name"],
+                [parse_map(m) for m in maps],
+                options,
             )
         except TestplanError as err:
             return await self.logger_preview(request, me, {_field(err): _message(err)}, 400)
@@ -480,7 +504,7 @@ class BenchApp:
             run = records.find_run(session, meta["run"])
             return imports.import_logger_data(session, run=run, data=data, by=me.initials)
 
-        raw, errors = self.act(request, unit_of_work)
+        raw, errors = await self.act(request, unit_of_work)
         if errors:
             return await self.logger_preview(request, me, errors, 400)
         path.unlink(missing_ok=True)
@@ -504,7 +528,7 @@ class BenchApp:
             run = records.find_run(session, key)
             imports.withdraw_import(session, run=run, import_id=import_id, why=why, by=me.initials)
 
-        _, errors = self.act(request, unit)
+        _, errors = await self.act(request, unit)
         return await self.run_page(
             request, me, errors, 400 if errors else 200, [] if errors else ["import withdrawn"]
         )
@@ -572,7 +596,7 @@ class BenchApp:
             run = records.find_run(session, key)
             return len(records.add_observations(session, run=run, items=items, by=me.initials))
 
-        n, errors = self.act(request, unit)
+        n, errors = await self.act(request, unit)
         if errors:
             return await self.run_page(request, me, errors, 400)
         request.state.form = None
@@ -580,7 +604,7 @@ class BenchApp:
 
     # --- sign-off and people -----------------------------------------------------------
 
-    def page(
+    async def page(
         self,
         me: BenchSession,
         name: str,
@@ -592,8 +616,7 @@ class BenchApp:
         """A page read from the store by ``read`` with its errors and notes; a missing
         record named in the path gives the "missing" page (404)."""
         try:
-            with self.store.reading() as session:
-                context = read(session)
+            context = await self.read(read)
         except TestplanError as err:
             return self.render(None, "missing", self.base(me, message=_message(err)), 404)
         extra = {"errors": errors or {}, "notes": notes or []}
@@ -610,7 +633,9 @@ class BenchApp:
         from testplan.web import views
 
         ref = request.path_params["ref"]
-        return self.page(me, "signoff", lambda s: views.signoff(s, ref), errors, status, notes)
+        return await self.page(
+            me, "signoff", lambda s: views.signoff(s, ref), errors, status, notes
+        )
 
     async def sign(self, request: Request, me: BenchSession) -> Response:
         """Sign the campaign in a role, as ``testplan sign`` does: the logged-in person's own
@@ -633,7 +658,7 @@ class BenchApp:
             signer = Signer(me.initials, private, option="--as")
             return signoff.sign(session, campaign=ref, role=role, signer=signer, printing=printing)
 
-        done, errors = self.act(request, unit)
+        done, errors = await self.act(request, unit)
         if errors:
             return await self.signoff_page(request, me, errors, 400)
         locked = "; the campaign is now locked" if done.role == "approved" else ""
@@ -650,7 +675,7 @@ class BenchApp:
     ) -> Response:
         from testplan.web import views
 
-        return self.page(me, "people", views.people, errors, status, notes)
+        return await self.page(me, "people", views.people, errors, status, notes)
 
     async def set_password(self, request: Request, me: BenchSession) -> Response:
         """Set a person's password, as ``people password`` does: signed with the logged-in
@@ -673,7 +698,7 @@ class BenchApp:
             signer = Signer(me.initials, private)
             return logins.set_password(session, initials=initials, password=password, by=signer)
 
-        person, errors = self.act(request, unit)
+        person, errors = await self.act(request, unit)
         if errors:
             return await self.people_page(request, me, errors, 400)
         return await self.people_page(
@@ -702,7 +727,7 @@ class BenchApp:
                 session, signer=Signer(me.initials, private), old=old, new=new
             )
 
-        _, errors = self.act(request, unit)
+        _, errors = await self.act(request, unit)
         if errors:
             for mine, field in (("password", "new_password"), ("key", "own_key")):
                 if mine in errors:
@@ -715,9 +740,9 @@ class BenchApp:
     async def results(self, request: Request, me: BenchSession) -> Response:
         from testplan.web import views
 
+        key = request.path_params["key"]
         try:
-            with self.store.reading() as session:
-                context = views.results(session, request.path_params["key"])
+            context = await self.read(lambda session: views.results(session, key))
         except TestplanError as err:
             return self.render(request, "missing", self.base(me, message=_message(err)), 404)
         return self.render(request, "results", self.base(me, **context))
@@ -725,9 +750,9 @@ class BenchApp:
     async def live(self, request: Request, me: BenchSession) -> Response:
         from testplan.web import views
 
+        key = request.path_params["key"]
         try:
-            with self.store.reading() as session:
-                context = views.live(session, request.path_params["key"])
+            context = await self.read(lambda session: views.live(session, key))
         except TestplanError as err:
             return self.render(request, "missing", self.base(me, message=_message(err)), 404)
         return self.render(request, "live", self.base(me, **context))
@@ -737,6 +762,13 @@ READ_FIELDS = ("layout", "tz", "delimiter", "decimal", "encoding", "skip_lines")
 
 
 PREVIEW_BYTES = 1 << 20
+
+
+def _checklist(session: Session, key: str) -> list[str]:
+    from testplan.store import records
+
+    run = records.find_run(session, key)
+    return list(records.run_procedure(session, run).get("specimen_state", []))
 
 
 def _head_of(path: Path) -> bytes:
