@@ -131,6 +131,9 @@ def long_csv(path: Path, rows: int = 1_000_000) -> Path:
     return path
 
 
+MANAGER_PASSPHRASE = "bench manager passphrase"  # of QM's key, folder/qm.pem in bench_store
+
+
 def bench_store(folder: Path, url: str | None = None) -> str:
     """A store with the sample campaign, an operator, a calibrated instrument and the run
     started; returns its URL."""
@@ -140,7 +143,7 @@ def bench_store(folder: Path, url: str | None = None) -> str:
         **os.environ,
         "TESTPLAN_DB": url,
         "TESTPLAN_KEY": str(key),
-        "TESTPLAN_KEY_PASSPHRASE": "bench manager passphrase",
+        "TESTPLAN_KEY_PASSPHRASE": MANAGER_PASSPHRASE,
     }
 
     def tp(*args: str) -> None:

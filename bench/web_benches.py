@@ -21,7 +21,7 @@ import threading
 import time
 from pathlib import Path
 
-from common import RUN, TESTPLAN, bench_store, long_csv, median_of, run_timed
+from common import MANAGER_PASSPHRASE, RUN, TESTPLAN, bench_store, long_csv, median_of, run_timed
 
 BENCHES = int(os.environ.get("BENCH_WEB_BENCHES", "20"))
 PAGES = int(os.environ.get("BENCH_WEB_PAGES", "12"))
@@ -55,6 +55,18 @@ def csrf_of(html: str) -> str:
     if not found:
         raise SystemExit("no CSRF token on the page")
     return found.group(1)
+
+
+def variants(csv: Path, n: int) -> list[Path]:
+    """``n`` copies of ``csv`` holding the same samples in different bytes (trailing zeros
+    on the first value): the store refuses the same bytes twice in one run."""
+    head, first, rest = csv.read_bytes().split(b"\n", 2)
+    out = []
+    for i in range(n):
+        path = csv.with_name(f"log-{i:02d}.csv")
+        path.write_bytes(b"\n".join([head, first + b"0" * i, rest]))
+        out.append(path)
+    return out
 
 
 def one_bench(base: str, csv: Path, pages: list[float], imports: list[float], stop: float) -> None:
@@ -95,10 +107,11 @@ def main() -> int:
     work = Path(tempfile.mkdtemp(prefix="tp-webbench-"))
     server = None
     try:
-        csv = long_csv(work / "log.csv", rows=ROWS)
+        csvs = variants(long_csv(work / "log.csv", rows=ROWS), BENCHES)
         url = bench_store(work)
-        env = {**os.environ, "TESTPLAN_DB": url}
-        subprocess.run(  # QM: the store's founding manager (bench_store)
+        env = {**os.environ, "TESTPLAN_DB": url, "TESTPLAN_KEY": str(work / "qm.pem"),
+               "TESTPLAN_KEY_PASSPHRASE": MANAGER_PASSPHRASE}  # fmt: skip
+        subprocess.run(  # QM: the store's founding manager (bench_store), signing
             [TESTPLAN, "people", "password", "AK", "--by", "QM", "-q"],
             input=PASSWORD + "\n", text=True, check=True, env=env, stdout=subprocess.DEVNULL,
         )  # fmt: skip
@@ -110,7 +123,7 @@ def main() -> int:
         def cli_imports() -> tuple[float, float]:
             t = time.perf_counter()
             peak = 0.0
-            for _ in range(BENCHES):
+            for csv in csvs:
                 cmd = [TESTPLAN, "record", "import", RUN, str(csv), *CLI_MAPS, "--by", "AK",
                        "--db", f"sqlite:///{cli_db}", "-q"]  # fmt: skip
                 peak = max(peak, run_timed(cmd)[1])
@@ -140,21 +153,24 @@ def main() -> int:
         errors: list[BaseException] = []
         stop = time.monotonic() + DEADLINE_S
 
-        def worker() -> None:
+        def worker(csv: Path) -> None:
             try:
                 one_bench(base, csv, pages, imports, stop)
             except BaseException as err:  # reported below
                 errors.append(err)
 
         t = time.perf_counter()
-        threads = [threading.Thread(target=worker) for _ in range(BENCHES)]
+        threads = [threading.Thread(target=worker, args=(csv,)) for csv in csvs]
         for th in threads:
             th.start()
         for th in threads:
             th.join()
         load_s = time.perf_counter() - t
         if errors:
-            raise SystemExit(f"a bench failed: {errors[0]!r}")
+            server.terminate()
+            _, said = server.communicate(timeout=10)
+            tail = "\n".join(said.decode(errors="replace").splitlines()[-30:])
+            raise SystemExit(f"a bench failed: {errors[0]!r}\nthe server said:\n{tail}")
         samples = ROWS // 2  # two of the four channels are mapped
         p95 = statistics.quantiles(pages, n=20)[-1] if len(pages) >= 20 else max(pages)
         web_rate = len(imports) * samples / load_s

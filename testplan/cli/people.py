@@ -156,26 +156,31 @@ def list_command(db: DbOption = None) -> None:
 @reports_errors
 def password_command(
     initials: Annotated[str, typer.Argument(help="Initials of a registered person.")],
-    by: Annotated[str, typer.Option("--by", help="Initials of a manager.")],
+    by: Annotated[str, typer.Option("--by", help="Initials of the manager who signs.")],
+    key: KeyOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
 ) -> None:
-    """Set a person's bench-page password (asked twice, stored as an argon2id hash).
+    """Set a person's bench-page password (asked twice, stored as an argon2id hash), signed
+    with the manager's own key.
 
     Reads the password from the terminal, or one line from standard input when piped.
 
-    Example: testplan people password AK --by MO
+    Example: testplan people password AK --by MO --key mo.pem
     """
     import sys
 
     from testplan.store import logins
 
+    signer = load_signer(by, key)
     if sys.stdin.isatty():
         password = typer.prompt("password", hide_input=True, confirmation_prompt=True)
     else:
         password = sys.stdin.readline().rstrip("\r\n")
     store = open_for_writing(db, quiet=quiet)
     person = store.write(
-        lambda session: logins.set_password(session, initials=initials, password=password, by=by)
+        lambda session: logins.set_password(
+            session, initials=initials, password=password, by=signer
+        )
     )
-    typer.echo(f"{person.initials}: bench-page password set by {by}")
+    typer.echo(f"{person.initials}: bench-page password set, signed by {by}")

@@ -117,7 +117,10 @@ def report_command(
                 plan=plan,
                 base=base,
                 signer=signer,
-                printing={"tool_version": __version__, "templates_sha256": templates_sha256(templates)},
+                printing={
+                    "tool_version": __version__,
+                    "templates_sha256": templates_sha256(templates),
+                },
             )
 
         pdf = store.write(unit)

@@ -93,8 +93,14 @@ def _sqlite_read_pragmas(dbapi_connection: Any, _record: Any) -> None:
     cur.close()
 
 
+READ_ONLY = "testplan_read_only"
+
+
 def _sqlite_begin(conn: sa.Connection) -> None:
-    conn.exec_driver_sql("BEGIN IMMEDIATE")
+    # A reading session begins deferred: in WAL mode it reads a snapshot without taking the
+    # write lock, so pages and reports read while another bench writes.
+    deferred = conn.get_execution_options().get(READ_ONLY, False)
+    conn.exec_driver_sql("BEGIN" if deferred else "BEGIN IMMEDIATE")
 
 
 def _sqlite_begin_deferred(conn: sa.Connection) -> None:
@@ -176,8 +182,10 @@ class Store:
 
     @contextmanager
     def reading(self) -> Iterator[Session]:
-        """A session for reading; nothing it does is committed."""
-        with Session(self.engine) as session:
+        """A session for reading; nothing it does is committed. On SQLite it takes no
+        write lock (a snapshot of the WAL), so it neither waits for nor blocks a writer."""
+        bind = self.engine.execution_options(**{READ_ONLY: True})
+        with Session(bind) as session:
             yield session
 
     def write(self, unit: Callable[[Session], T]) -> T:

@@ -13,6 +13,7 @@ import datetime as dt
 import hashlib
 import json
 import uuid
+from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import Any
 
@@ -308,7 +309,14 @@ def signature_context(session: Session, person: Person) -> dict[str, Any]:
 
 def _ready(session: Session, campaign: CampaignRecord) -> None:
     """Every run carried out is finished, checked by a second person and judged on the
-    evidence as it is now."""
+    evidence as it is now; else the first thing that blocks sign-off is raised."""
+    for problem in blockers(session, campaign):
+        raise problem
+
+
+def blockers(session: Session, campaign: CampaignRecord) -> Iterator[RecordError]:
+    """Each thing that blocks signing the campaign now, one RecordError per run (a run not
+    finished or checked, not judged, or judged on evidence that has changed since)."""
     from testplan.store.judging import stale_inputs
 
     runs = session.exec(
@@ -317,24 +325,26 @@ def _ready(session: Session, campaign: CampaignRecord) -> None:
         )
     ).all()
     if not runs:
-        raise RecordError(f"{campaign.reference} has no run carried out to sign for")
+        yield RecordError(f"{campaign.reference} has no run carried out to sign for")
     for run in runs:
         if run.state not in ("checked", "invalid"):  # an invalid run is judged when declared
-            raise RecordError(
+            yield RecordError(
                 f"run {run.key} is {run.state}; every run must be finished and its data "
                 "checked before sign-off",
                 fix=f"`testplan record check {run.key}`",
             )
+            continue
         last = session.exec(
             select(Judgement)
             .where(Judgement.run_id == run.id)
             .order_by(col(Judgement.judged_at).desc())
         ).first()
         if last is None:
-            raise RecordError(f"run {run.key} is not judged", fix="run `testplan judge`")
+            yield RecordError(f"run {run.key} is not judged", fix="run `testplan judge`")
+            continue
         stale = stale_inputs(session, run, last)
         if stale:
-            raise RecordError(
+            yield RecordError(
                 f"run {run.key} was judged {last.judged_at:%Y-%m-%d %H:%M} UTC on evidence "
                 f"that has changed since ({'; '.join(stale[:3])})",
                 fix="run `testplan judge` again, then sign",

@@ -10,12 +10,14 @@ import json
 import secrets
 import shutil
 import tempfile
+import threading
 import time
 from collections.abc import Awaitable, Callable
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, TypeVar
 
 from starlette.applications import Starlette
+from starlette.concurrency import run_in_threadpool
 from starlette.datastructures import FormData, UploadFile
 from starlette.requests import Request
 from starlette.responses import HTMLResponse, RedirectResponse, Response
@@ -30,6 +32,7 @@ if TYPE_CHECKING:  # pragma: no cover
 
     from testplan.store.engine import Store
 
+T = TypeVar("T")
 Handler = Callable[[Request, BenchSession], Awaitable[Response]]
 
 # Where a store or CLI error key belongs on the page's forms.
@@ -42,6 +45,10 @@ FIELD_OF = {
     "--state-differs": "checklist",
     "--operator": "form",
     "--by": "form",
+    "--as": "form",
+    "--role": "role",
+    "INITIALS": "initials",
+    "old_password": "old_password",
     "--map": "map",
     "--tz": "tz",
     "--at": "form",
@@ -92,11 +99,13 @@ class BenchApp:
         self.sessions = Sessions(idle_minutes * 60, clock)
         self.env = environment()
         self.uploads = upload_dir or Path(tempfile.mkdtemp(prefix="testplan-uploads-"))
+        sqlite = store.dialect == "sqlite"
+        self.write_lock: threading.Lock | None = threading.Lock() if sqlite else None
 
     # --- plumbing --------------------------------------------------------------------
 
     def render(
-        self, request: Request, name: str, context: dict[str, Any], status: int = 200
+        self, request: Request | None, name: str, context: dict[str, Any], status: int = 200
     ) -> HTMLResponse:
         page = self.env.get_template(f"web/{name}.html.j2").render(
             me=context.pop("me", None), errors=context.pop("errors", {}), **context
@@ -120,6 +129,7 @@ class BenchApp:
             if write:
                 form = await self.form(request)
                 if not security.csrf_ok(me, form.get("csrf")):
+                    await self.close_form(request)
                     return HTMLResponse("this form has expired; reload the page", status_code=403)
                 request.state.form = form
             try:
@@ -198,7 +208,7 @@ class BenchApp:
             roles = frozenset(identity.roles_of(session, got)) if isinstance(got, Person) else None
             return got, roles or frozenset()
 
-        got, roles = self.store.write(unit)
+        got, roles = await run_in_threadpool(self.write, unit)
         if isinstance(got, str):
             return self._login_form(request, {"key" if by_key else "password": got}, status=401)
         response = RedirectResponse("/", status_code=303)
@@ -216,8 +226,7 @@ class BenchApp:
     async def today(self, request: Request, me: BenchSession) -> Response:
         from testplan.web import views
 
-        with self.store.reading() as session:
-            context = views.today(session)
+        context = await self.read(views.today)
         return self.render(request, "today", self.base(me, **context))
 
     async def run_page(
@@ -232,8 +241,7 @@ class BenchApp:
 
         key = request.path_params["key"]
         try:
-            with self.store.reading() as session:
-                context = views.run(session, key)
+            context = await self.read(lambda session: views.run(session, key))
         except TestplanError as err:
             return self.render(request, "missing", self.base(me, message=_message(err)), 404)
         form = getattr(request.state, "form", None)
@@ -244,12 +252,32 @@ class BenchApp:
             status,
         )
 
-    def act(self, request: Request, unit: Callable[[Session], Any]) -> tuple[Any, dict[str, str]]:
-        """Run one unit of work; a refusal comes back as {field: message}, nothing stored."""
+    async def act(
+        self, request: Request, unit: Callable[[Session], Any]
+    ) -> tuple[Any, dict[str, str]]:
+        """Run one unit of work in a worker thread (the event loop goes on serving other
+        benches' pages meanwhile); a refusal comes back as {field: message}, nothing stored."""
         try:
-            return self.store.write(unit), {}
+            return await run_in_threadpool(self.write, unit), {}
         except TestplanError as err:
             return None, {_field(err): _message(err)}
+
+    def write(self, unit: Callable[[Session], T]) -> T:
+        """``store.write`` from a worker thread. On SQLite one writer at a time queues on a
+        lock here instead of on the file's busy timeout (its writes queue anyway)."""
+        if self.write_lock is None:
+            return self.store.write(unit)
+        with self.write_lock:
+            return self.store.write(unit)
+
+    async def read(self, view: Callable[[Session], T]) -> T:
+        """What ``view`` reads from the store, in a worker thread, like ``act``."""
+
+        def run() -> T:
+            with self.store.reading() as session:
+                return view(session)
+
+        return await run_in_threadpool(run)
 
     async def start(self, request: Request, me: BenchSession) -> Response:
         from testplan.store import records
@@ -257,7 +285,8 @@ class BenchApp:
         key = request.path_params["key"]
         form = await self.form(request)
         try:
-            sheet = _start_sheet(form, me.initials, self._checklist(key))
+            checklist = await self.read(lambda session: _checklist(session, key))
+            sheet = _start_sheet(form, me.initials, checklist)
         except TestplanError as err:
             return await self.run_page(request, me, {_field(err): _message(err)}, 400)
 
@@ -265,17 +294,10 @@ class BenchApp:
             run = records.find_run(session, key)
             return records.start_run(session, run=run, sheet=sheet)
 
-        warnings, errors = self.act(request, unit)
+        warnings, errors = await self.act(request, unit)
         if errors:
             return await self.run_page(request, me, errors, 400)
         return await self.run_page(request, me, notes=["run started", *warnings])
-
-    def _checklist(self, key: str) -> list[str]:
-        from testplan.store import records
-
-        with self.store.reading() as session:
-            run = records.find_run(session, key)
-            return list(records.run_procedure(session, run).get("specimen_state", []))
 
     async def finish(self, request: Request, me: BenchSession) -> Response:
         from testplan.store import records
@@ -287,7 +309,7 @@ class BenchApp:
             run = records.find_run(session, key)
             records.finish_run(session, run=run, by=me.initials, at=None, note=note)
 
-        _, errors = self.act(request, unit)
+        _, errors = await self.act(request, unit)
         return await self.run_page(
             request, me, errors, 400 if errors else 200, [] if errors else ["run finished"]
         )
@@ -296,28 +318,23 @@ class BenchApp:
         """The data check: a signed act, so it asks for the checker's own key and passphrase.
         Refused, with the criterion named beside the button, while a failed condition is
         neither covered by an approved deviation nor the run invalidated."""
-        from testplan.keys import load_private_bytes
         from testplan.store import judging, records
         from testplan.store.identity import Signer
 
         key = request.path_params["key"]
         form = request.state.form
-        upload = form.get("key_file")
         note = _text(form, "note").strip() or None
-        if not isinstance(upload, UploadFile) or not upload.filename:
-            return await self.run_page(request, me, {"key": "choose your key file"}, 400)
-        data = await upload.read(64 * 1024)
         try:
-            private = load_private_bytes(data, _text(form, "passphrase"), Path("key file"))
+            private = await _private_key(form)
         except TestplanError as err:
-            return await self.run_page(request, me, {"key": _message(err)}, 400)
+            return await self.run_page(request, me, {"key": err.message}, 400)
 
         def unit(session: Session) -> None:
             run = records.find_run(session, key)
             records.check_run(session, run=run, by=Signer(me.initials, private), note=note)
             judging.require_disposition(session, run, actor=me.initials)  # else rolled back
 
-        _, errors = self.act(request, unit)
+        _, errors = await self.act(request, unit)
         if "RUN" in errors:  # a failed condition not dispositioned: shown at the check
             errors["check"] = errors.pop("RUN")
         return await self.run_page(
@@ -357,7 +374,7 @@ class BenchApp:
                 covers=_text(form, "covers").strip() or None,
             )
 
-        _, errors = self.act(request, unit)
+        _, errors = await self.act(request, unit)
         if errors:
             if "key" in errors:  # the approver's key, not the logged-in person's
                 errors["approver_key"] = errors.pop("key")
@@ -416,14 +433,17 @@ class BenchApp:
         errors = dict(errors or {})
         preview = None
         try:
-            preview = preview_logger_bytes(
-                _head_of(path), meta["name"], _read_options(meta["options"], [])
+            preview = await run_in_threadpool(
+                preview_logger_bytes,
+                _head_of(path),
+                meta["name"],
+                _read_options(meta["options"], []),
             )
         except TestplanError as err:
             errors["file"] = _message(err)
-        with self.store.reading() as session:
-            equipment = views.run_equipment_tags(session, meta["run"])
-            specimens = views.run_serials(session, meta["run"])
+        equipment, specimens = await self.read(
+            lambda s: (views.run_equipment_tags(s, meta["run"]), views.run_serials(s, meta["run"]))
+        )
         return self.render(
             request,
             "preview",
@@ -470,8 +490,12 @@ class BenchApp:
             return await self.logger_preview(request, me, {"map": "pick at least one channel"}, 400)
         try:
             options: ReadOptions = _read_options(meta["options"], [], skipped)
-            data = read_logger_bytes(
-                path.read_bytes(), meta["name"], [parse_map(m) for m in maps], options
+            data = await run_in_threadpool(
+                read_logger_bytes,
+                path.read_bytes(),
+                meta["name"],
+                [parse_map(m) for m in maps],
+                options,
             )
         except TestplanError as err:
             return await self.logger_preview(request, me, {_field(err): _message(err)}, 400)
@@ -480,7 +504,7 @@ class BenchApp:
             run = records.find_run(session, meta["run"])
             return imports.import_logger_data(session, run=run, data=data, by=me.initials)
 
-        raw, errors = self.act(request, unit_of_work)
+        raw, errors = await self.act(request, unit_of_work)
         if errors:
             return await self.logger_preview(request, me, errors, 400)
         path.unlink(missing_ok=True)
@@ -504,7 +528,7 @@ class BenchApp:
             run = records.find_run(session, key)
             imports.withdraw_import(session, run=run, import_id=import_id, why=why, by=me.initials)
 
-        _, errors = self.act(request, unit)
+        _, errors = await self.act(request, unit)
         return await self.run_page(
             request, me, errors, 400 if errors else 200, [] if errors else ["import withdrawn"]
         )
@@ -572,20 +596,153 @@ class BenchApp:
             run = records.find_run(session, key)
             return len(records.add_observations(session, run=run, items=items, by=me.initials))
 
-        n, errors = self.act(request, unit)
+        n, errors = await self.act(request, unit)
         if errors:
             return await self.run_page(request, me, errors, 400)
         request.state.form = None
         return await self.run_page(request, me, notes=[f"{n} observation(s) recorded"])
+
+    # --- sign-off and people -----------------------------------------------------------
+
+    async def page(
+        self,
+        me: BenchSession,
+        name: str,
+        read: Callable[[Session], dict[str, Any]],
+        errors: dict[str, str] | None,
+        status: int,
+        notes: list[str] | None,
+    ) -> Response:
+        """A page read from the store by ``read`` with its errors and notes; a missing
+        record named in the path gives the "missing" page (404)."""
+        try:
+            context = await self.read(read)
+        except TestplanError as err:
+            return self.render(None, "missing", self.base(me, message=_message(err)), 404)
+        extra = {"errors": errors or {}, "notes": notes or []}
+        return self.render(None, name, self.base(me, **extra, **context), status)
+
+    async def signoff_page(
+        self,
+        request: Request,
+        me: BenchSession,
+        errors: dict[str, str] | None = None,
+        status: int = 200,
+        notes: list[str] | None = None,
+    ) -> Response:
+        from testplan.web import views
+
+        ref = request.path_params["ref"]
+        return await self.page(
+            me, "signoff", lambda s: views.signoff(s, ref), errors, status, notes
+        )
+
+    async def sign(self, request: Request, me: BenchSession) -> Response:
+        """Sign the campaign in a role, as ``testplan sign`` does: the logged-in person's own
+        key and passphrase, given now and used only in memory; roles as granted now."""
+        from testplan import __version__
+        from testplan.report.render import templates_sha256
+        from testplan.store import signoff
+        from testplan.store.identity import Signer
+
+        ref = request.path_params["ref"]
+        form = request.state.form
+        role = _text(form, "role")
+        try:
+            private = await _private_key(form)
+        except TestplanError as err:
+            return await self.signoff_page(request, me, {"key": err.message}, 400)
+        printing = {"tool_version": __version__, "templates_sha256": templates_sha256()}
+
+        def unit(session: Session) -> Any:
+            signer = Signer(me.initials, private, option="--as")
+            return signoff.sign(session, campaign=ref, role=role, signer=signer, printing=printing)
+
+        done, errors = await self.act(request, unit)
+        if errors:
+            return await self.signoff_page(request, me, errors, 400)
+        locked = "; the campaign is now locked" if done.role == "approved" else ""
+        said = f"{done.role} by {done.initials}, manifest root {done.root}{locked}"
+        return await self.signoff_page(request, me, notes=[said])
+
+    async def people_page(
+        self,
+        request: Request,
+        me: BenchSession,
+        errors: dict[str, str] | None = None,
+        status: int = 200,
+        notes: list[str] | None = None,
+    ) -> Response:
+        from testplan.web import views
+
+        return await self.page(me, "people", views.people, errors, status, notes)
+
+    async def set_password(self, request: Request, me: BenchSession) -> Response:
+        """Set a person's password, as ``people password`` does: signed with the logged-in
+        manager's own key and passphrase, given now."""
+        from testplan.store import logins
+        from testplan.store.identity import Signer
+
+        form = request.state.form
+        initials, password = _text(form, "initials"), _text(form, "password")
+        if password != _text(form, "password_again"):
+            return await self.people_page(
+                request, me, {"password": "the two passwords differ"}, 400
+            )
+        try:
+            private = await _private_key(form)
+        except TestplanError as err:
+            return await self.people_page(request, me, {"key": err.message}, 400)
+
+        def unit(session: Session) -> Any:
+            signer = Signer(me.initials, private)
+            return logins.set_password(session, initials=initials, password=password, by=signer)
+
+        person, errors = await self.act(request, unit)
+        if errors:
+            return await self.people_page(request, me, errors, 400)
+        return await self.people_page(
+            request, me, notes=[f"{person.initials}: password set, signed by {me.initials}"]
+        )
+
+    async def own_password(self, request: Request, me: BenchSession) -> Response:
+        """Change one's own password: the present one, and one's own key and passphrase."""
+        from testplan.store import logins
+        from testplan.store.identity import Signer
+
+        form = request.state.form
+        new = _text(form, "new_password")
+        if new != _text(form, "new_password_again"):
+            return await self.people_page(
+                request, me, {"new_password": "the two passwords differ"}, 400
+            )
+        try:
+            private = await _private_key(form, "own_key_file", "own_passphrase")
+        except TestplanError as err:
+            return await self.people_page(request, me, {"own_key": err.message}, 400)
+
+        def unit(session: Session) -> Any:
+            old = _text(form, "old_password")
+            return logins.change_own_password(
+                session, signer=Signer(me.initials, private), old=old, new=new
+            )
+
+        _, errors = await self.act(request, unit)
+        if errors:
+            for mine, field in (("password", "new_password"), ("key", "own_key")):
+                if mine in errors:
+                    errors[field] = errors.pop(mine)
+            return await self.people_page(request, me, errors, 400)
+        return await self.people_page(request, me, notes=["your password is changed"])
 
     # --- results and live ------------------------------------------------------------
 
     async def results(self, request: Request, me: BenchSession) -> Response:
         from testplan.web import views
 
+        key = request.path_params["key"]
         try:
-            with self.store.reading() as session:
-                context = views.results(session, request.path_params["key"])
+            context = await self.read(lambda session: views.results(session, key))
         except TestplanError as err:
             return self.render(request, "missing", self.base(me, message=_message(err)), 404)
         return self.render(request, "results", self.base(me, **context))
@@ -593,9 +750,9 @@ class BenchApp:
     async def live(self, request: Request, me: BenchSession) -> Response:
         from testplan.web import views
 
+        key = request.path_params["key"]
         try:
-            with self.store.reading() as session:
-                context = views.live(session, request.path_params["key"])
+            context = await self.read(lambda session: views.live(session, key))
         except TestplanError as err:
             return self.render(request, "missing", self.base(me, message=_message(err)), 404)
         return self.render(request, "live", self.base(me, **context))
@@ -605,6 +762,13 @@ READ_FIELDS = ("layout", "tz", "delimiter", "decimal", "encoding", "skip_lines")
 
 
 PREVIEW_BYTES = 1 << 20
+
+
+def _checklist(session: Session, key: str) -> list[str]:
+    from testplan.store import records
+
+    run = records.find_run(session, key)
+    return list(records.run_procedure(session, run).get("specimen_state", []))
 
 
 def _head_of(path: Path) -> bytes:
@@ -668,6 +832,22 @@ def _start_sheet(form: FormData, operator: str, checklist: list[str]) -> Any:
     )
 
 
+async def _private_key(form: FormData, field: str = "key_file", phrase: str = "passphrase") -> Any:
+    """The private key uploaded in ``field``, opened in memory with the passphrase in
+    ``phrase`` (never written anywhere). Raises TestplanError (key "key") when no file was
+    chosen or it does not open."""
+    from testplan.keys import load_private_bytes
+
+    upload = form.get(field)
+    if not isinstance(upload, UploadFile) or not upload.filename:
+        raise TestplanError("choose your key file", key="key")
+    data = await upload.read(64 * 1024)
+    try:
+        return load_private_bytes(data, _text(form, phrase), Path("key file"))
+    except TestplanError as err:
+        raise TestplanError(_message(err), key="key") from None
+
+
 def _text(form: FormData | None, name: str) -> str:
     value = form.get(name) if form is not None else None
     return value if isinstance(value, str) else ""
@@ -724,6 +904,11 @@ def make_app(
         Route("/run/{key}/logger/{token}", g(bench.logger_import, write=True), methods=["POST"]),
         Route("/run/{key}/results", g(bench.results, write=False), methods=["GET"]),
         Route("/run/{key}/live", g(bench.live, write=False), methods=["GET"]),
+        Route("/campaign/{ref}/signoff", g(bench.signoff_page, write=False), methods=["GET"]),
+        Route("/campaign/{ref}/signoff", g(bench.sign, write=True), methods=["POST"]),
+        Route("/people", g(bench.people_page, write=False), methods=["GET"]),
+        Route("/people/password", g(bench.set_password, write=True), methods=["POST"]),
+        Route("/people/own-password", g(bench.own_password, write=True), methods=["POST"]),
     ]
     app = Starlette(routes=routes)
     app.state.bench = bench

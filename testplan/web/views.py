@@ -11,6 +11,7 @@ from sqlmodel import Session, col, select
 from testplan.store import records
 from testplan.store.tables import (
     Calibration,
+    CampaignRecord,
     Equipment,
     Judgement,
     Observation,
@@ -49,6 +50,9 @@ def today(session: Session, now: dt.datetime | None = None) -> dict[str, Any]:
         "running": [r for r in runs if r.state == "running"],
         "waiting": [r for r in runs if r.state == "finished"],
         "overdue": overdue,
+        "campaigns": session.exec(
+            select(CampaignRecord).order_by(col(CampaignRecord.reference))
+        ).all(),
         "now": now,
     }
 
@@ -173,3 +177,41 @@ def _span(left: dt.timedelta | None) -> str | None:
     minutes = int(left.total_seconds() // 60)
     days, rest = divmod(minutes, 24 * 60)
     return (f"{days} d " if days else "") + f"{rest // 60} h {rest % 60:02d} min"
+
+
+def signoff(session: Session, reference: str) -> dict[str, Any]:
+    """A campaign's sign-off: who signed in which role and when, the manifest root, the
+    role to sign next, and what blocks signing now (the checks ``sign`` makes)."""
+    from testplan.store import signoff as signing
+
+    camp = records.find_campaign(session, reference)
+    state = signing.signoff_state(session, camp)
+    done = {role for role, *_ in state.signers}
+    after = [r for r in signing.ORDER if r not in done]
+    problems = [] if state.approved else list(signing.blockers(session, camp))
+    return {
+        "campaign": camp,
+        "state": state,
+        "next_role": after[0] if after and not state.approved else None,
+        "blockers": [(p.message, p.fix) for p in problems],
+        "signing_roles": signing.ROLES,
+    }
+
+
+def people(session: Session) -> dict[str, Any]:
+    """The people register with the roles held now and whether a password is set."""
+    from testplan.store.identity import list_people
+    from testplan.store.tables import PersonPassword
+
+    with_password = {str(p) for p in session.exec(select(PersonPassword.person_id)).all()}
+    return {
+        "people": [
+            {
+                "initials": p.initials,
+                "name": p.name,
+                "roles": roles,
+                "password": str(p.id) in with_password,
+            }  # fmt: skip
+            for p, roles in list_people(session)
+        ]
+    }

@@ -10,7 +10,7 @@ import time
 
 import pytest
 
-from .conftest import START, Bench
+from .conftest import SAMPLE, START, Bench
 
 RUN = "water-8@ip-verification-1"
 ROWS = 50_000
@@ -57,3 +57,27 @@ def test_four_processes_import_50000_samples_each(bench: Bench) -> None:
     assert bench.sample_count() == PROCESSES * ROWS
     assert bench.sql("SELECT count(*) FROM audit WHERE action = 'data.import'") == [(PROCESSES,)]
     assert bench("store", "check").stdout.startswith("ok: ")
+
+
+def test_a_reading_session_reads_while_another_bench_holds_the_write_lock(tmp_path) -> None:  # type: ignore[no-untyped-def]
+    """A page or report reads the last committed state while an import is being written: on
+    SQLite the reading session takes no write lock (else it would wait out the busy timeout
+    and fail), and it does not see the writer's uncommitted rows."""
+    import sqlalchemy as sa
+
+    from testplan.store.engine import open_store
+
+    url = f"sqlite:///{tmp_path / 'lab.db'}"
+    Bench(url, tmp_path)("init", str(SAMPLE), "--quiet")
+    store = open_store(url)
+    writer = sa.create_engine(url, connect_args={"timeout": 0})
+    try:
+        with writer.connect() as conn:
+            conn.exec_driver_sql("BEGIN IMMEDIATE")
+            conn.exec_driver_sql("DELETE FROM run")  # uncommitted, holding the write lock
+            with store.reading() as session:
+                assert session.execute(sa.text("SELECT count(*) FROM run")).scalar_one() > 0
+            conn.exec_driver_sql("ROLLBACK")
+    finally:
+        writer.dispose()
+        store.dispose()

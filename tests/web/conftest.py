@@ -36,7 +36,7 @@ def stocked(folder: Path, monkeypatch: pytest.MonkeyPatch, url: str | None = Non
     for who, password in PASSWORDS.items():
         result = bench.runner.invoke(
             __import__("testplan.cli", fromlist=["app"]).app,
-            ["people", "password", who, "--by", MANAGER, "--db", bench.url, "--quiet"],
+            ["people", "password", who, *bench.signed(MANAGER), "--db", bench.url, "--quiet"],
             input=password + "\n",
         )
         assert result.exit_code == 0, result.stderr

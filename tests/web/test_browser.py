@@ -13,7 +13,8 @@ from typing import Any
 
 import pytest
 
-from tests.store.conftest import PASS, Bench
+from testplan.cli import app as cli_app
+from tests.store.conftest import MANAGER, PASS, Bench, record_and_judge
 from tests.web.conftest import DATA, PASSWORDS, RUN, stocked
 from tests.web.twin import COVERED, COVERED_WHY, INGRESS, differences, record_twin
 
@@ -170,3 +171,50 @@ def test_a_whole_run_in_a_browser_stores_what_the_cli_stores(
     record_twin(twin)
     assert differences(bench, twin) == {}
     assert bench("store", "check").exit_code == 0
+
+
+def test_sign_off_in_a_browser(
+    served: str, bench: Bench, tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """A run recorded and judged through the CLI; the preparer signs on the sign-off page
+    with their own key file, and the page then shows the signature and the root."""
+    from playwright.sync_api import sync_playwright
+
+    record_and_judge(bench)
+    result = bench.runner.invoke(
+        cli_app,
+        ["people", "password", "RP", *bench.signed(MANAGER), "--db", bench.url, "--quiet"],
+        input="signing-desk-2027\n",
+    )
+    assert result.exit_code == 0, result.stderr
+    shots_dir = tmp_path / "screenshots"
+    shots_dir.mkdir()
+    with sync_playwright() as pw:
+        browser = pw.chromium.launch(executable_path=CHROMIUM)
+        page = browser.new_context(viewport=TABLET).new_page()
+        shot = Shots(page, shots_dir)
+        page.goto(f"{served}/login")
+        page.fill("#initials", "RP")
+        page.fill("#password", "signing-desk-2027")
+        page.get_by_role("button", name="Log in", exact=True).click()
+        page.wait_for_url(f"{served}/")
+        page.get_by_role("link", name="QC-2027-014").click()
+        assert page.locator("#next-role").inner_text() == "prepared"
+        shot("signoff")
+        page.set_input_files("#key_file", str(tmp_path / "RP.pem"))
+        page.fill("#passphrase", "not the passphrase")
+        page.get_by_role("button", name="Sign the campaign's records").click()
+        assert page.locator("#key-error").is_visible()
+        shot("signoff-refused")
+        page.set_input_files("#key_file", str(tmp_path / "RP.pem"))
+        page.fill("#passphrase", PASS)
+        page.get_by_role("button", name="Sign the campaign's records").click()
+        assert page.locator(".note").first.inner_text().startswith("prepared by RP")
+        assert "Rita Pereira (RP)" in page.locator("#signatures").inner_text()
+        assert page.locator("#next-role").inner_text() == "reviewed"
+        shot("signoff-prepared")
+        page.get_by_role("link", name="People").click()
+        shot("people")
+        browser.close()
+    assert len(list(shots_dir.glob("*.png"))) == 4
+    assert bench.sql("SELECT role FROM signature") == [("prepared",)]
