@@ -74,7 +74,7 @@ amb=(--ambient-temperature "21.5 degC" --ambient-humidity "46 %" --ambient-press
 run=water-6@ip-verification-1
 testplan record start $run --operator AK --equipment FM-02 "${amb[@]}" --state-ok --at 2027-01-12T08:05Z $q
 testplan record import $run "$bench/jet-ip1.csv" --map "Q1[L/min]=flow@FM-02" --map "P1[bar]=nozzle_pressure@FM-02" --by AK $q
-testplan record observe $run --sheet "$bench/after-jets.toml" --by AK $q
+testplan record observe $run --sheet "$bench/after-jets.toml" --by AK --at 2027-01-12T08:09Z $q
 testplan record finish $run --by AK --at 2027-01-12T08:09Z $q
 testplan record check $run "${mo[@]}" --at 2027-01-12T11:30Z $q
 
@@ -85,7 +85,7 @@ testplan record start $run --operator AK --equipment LT-03 --equipment TT-07 "${
 testplan record import $run "$bench/tank-ip1.csv" --tz Europe/London --time-column timestamp \
     --map "depth_cm[cm]=lowest_point_depth@LT-03" --map "water_C[degC]=water_temperature@LT-03" \
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}01" --map "s2_C[degC]=specimen_temperature@TT-07#${S}02" --by AK $q
-testplan record observe $run --sheet "$bench/after-ip1.toml" --by AK $q
+testplan record observe $run --sheet "$bench/after-ip1.toml" --by AK --at 2027-01-15T16:15Z $q
 testplan record finish $run --by AK --at 2027-01-15T16:20Z $q
 testplan record check $run "${mo[@]}" --at 2027-01-18T09:00Z $q
 
@@ -95,7 +95,7 @@ testplan record start $run --operator JT --equipment TQ-11 "${amb[@]}" --state-o
 testplan record import $run "$bench/rig-knob.csv" --map "cycles[cycle]=cycle_count@TQ-11" \
     --map "tq_st1[N*mm]=torque@TQ-11#${S}03" --map "tq_st2[N*mm]=torque@TQ-11#${S}04" \
     --map "tq_st3[N*mm]=torque@TQ-11#${S}05" --by JT $q
-testplan record observe $run --note "no failures; detents crisp on all three at 54 000 cycles" --by JT $q
+testplan record observe $run --note "no failures; detents crisp on all three at 54 000 cycles" --by JT --at 2027-01-16T05:00Z $q
 testplan record finish $run --by JT --at 2027-01-16T05:05Z $q
 testplan record check $run "${mo[@]}" --at 2027-01-18T10:00Z $q
 
@@ -110,10 +110,10 @@ testplan record import $run "$bench/fog.csv" --map "fog_ml_h[mL/h]=fog_collectio
 for n in 03 04 05; do
     rating=9; [ $n = 05 ] && rating=10
     testplan record observe $run --specimen ${S}$n --checkpoint "after 3 cycles and recovery" --rating $rating \
-        --function pass --by AK $q
+        --function pass --by AK --at 2027-01-21T07:30Z $q
 done
 testplan record deviation $run --description "cabinet temperature 34.4 to 35.7 degC in the spray phase, above 35 degC for 40 min" \
-    --covers salt-mist.spray_temperature --reason "cabinet heater controller overshoot after the door was opened" --approved-by MO --key "$keys/MO.pem" --by AK $q
+    --covers salt-mist.spray_temperature --reason "cabinet heater controller overshoot after the door was opened" --approved-by MO --key "$keys/MO.pem" --by AK --at 2027-01-19T11:00Z $q
 testplan record finish $run --by AK --at 2027-01-21T08:00Z $q
 testplan record check $run "${jt[@]}" --at 2027-01-21T15:00Z $q
 
@@ -121,7 +121,7 @@ testplan record check $run "${jt[@]}" --at 2027-01-21T15:00Z $q
 jet_run() {  # run, specimen file suffix, start, finish, operator, checker
     testplan record start "$1" --operator "$5" --equipment FM-02 "${amb[@]}" --state-ok --at "$3" $q
     testplan record import "$1" "$bench/jet-$2.csv" --map "Q1[L/min]=flow@FM-02" --map "P1[bar]=nozzle_pressure@FM-02" --by "$5" $q
-    testplan record observe "$1" --sheet "$bench/after-jets-$2.toml" --by "$5" $q
+    testplan record observe "$1" --sheet "$bench/after-jets-$2.toml" --by "$5" --at "$4" $q
     testplan record finish "$1" --by "$5" --at "$4" $q
     testplan record check "$1" --by "$6" --key "$keys/$6.pem" --at "$4" $q
 }
@@ -137,9 +137,9 @@ testplan record start $run --operator AK --equipment LT-03 --equipment TT-07 "${
 testplan record import $run "$bench/tank-aged1.csv" --tz Europe/London --time-column timestamp \
     --map "depth_cm[cm]=lowest_point_depth@LT-03" --map "water_C[degC]=water_temperature@LT-03" \
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}03" --map "s2_C[degC]=specimen_temperature@TT-07#${S}04" --by AK $q
-testplan record observe $run --sheet "$bench/after-aged1.toml" --by AK $q
+testplan record observe $run --sheet "$bench/after-aged1.toml" --by AK --at 2027-01-24T14:15Z $q
 testplan record deviation $run --description "tank topped up at hour 30 while the specimens stayed immersed" \
-    --reason "evaporation lowered the level" --approved-by MO --key "$keys/MO.pem" --by AK $q
+    --reason "evaporation lowered the level" --approved-by MO --key "$keys/MO.pem" --by AK --at 2027-01-22T20:30Z $q
 testplan record finish $run --by AK --at 2027-01-24T14:20Z $q
 testplan record invalidate $run --reason "tank level drawn down below the declared depth for 4 min at hour 30 while topping up" --by MO $q
 
@@ -149,7 +149,7 @@ testplan record start $run --operator JT --equipment LT-03 --equipment TT-07 "${
 testplan record import $run "$bench/tank-aged2.csv" --tz Europe/London --time-column timestamp --skip-unmapped \
     --map "depth_cm[cm]=lowest_point_depth@LT-03" --map "water_C[degC]=water_temperature@LT-03" \
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}05" --by JT $q
-testplan record observe $run --sheet "$bench/after-aged2.toml" --by JT $q
+testplan record observe $run --sheet "$bench/after-aged2.toml" --by JT --at 2027-01-28T08:25Z $q
 testplan record finish $run --by JT --at 2027-01-28T08:30Z $q
 testplan record check $run "${mo[@]}" --at 2027-01-28T11:00Z $q
 
@@ -159,7 +159,7 @@ testplan record start $run --operator AK --equipment LT-03 --equipment TT-07 "${
 testplan record import $run "$bench/tank-aged1-repeat.csv" --tz Europe/London --time-column timestamp \
     --map "depth_cm[cm]=lowest_point_depth@LT-03" --map "water_C[degC]=water_temperature@LT-03" \
     --map "s1_C[degC]=specimen_temperature@TT-07#${S}03" --map "s2_C[degC]=specimen_temperature@TT-07#${S}04" --by AK $q
-testplan record observe $run --sheet "$bench/after-aged1.toml" --by AK $q
+testplan record observe $run --sheet "$bench/after-aged1.toml" --by AK --at 2027-01-31T09:05Z $q
 testplan record finish $run --by AK --at 2027-01-31T09:10Z $q
 testplan record check $run "${jt[@]}" --at 2027-01-31T11:00Z $q
 

@@ -76,10 +76,20 @@ def test_demo_bench_work_records_its_runs_judges_them_and_checks_out(tmp_path: P
     assert "IPX6 met water-6@aged-1, water-6@aged-2, water-6@aged-3" in first
     assert "IPX8 at 2 m for 72 h not met water-8@aged-1-repeat2, water-8@aged-2" in first
     assert "IP6X not evaluated dust-6@ip-verification-1" in first
-    assert "salt mist, IEC 60068-2-52 not met" in first  # S04's ingress at the retest
+    assert "salt mist, IEC 60068-2-52 not met salt-mist@aged-1 failed: QC-2027-014-S04 in " in (
+        first
+    )  # S04's ingress at the retest
+    assert "endurance: mode selector knob not met" in first
     assert "quality manager" in first  # the approver's job title beside the signature
     whole = " ".join(p.extract_text() for p in PdfReader(tmp_path / "report.pdf").pages)
     assert "N·mm" in whole
+    # The retest rests on valid runs only: the invalid water-8@aged-1 is not evidence.
+    flat = " ".join(whole.split())
+    assert "ingress found in water-8@aged-1- repeat2" in flat or (
+        "ingress found in water-8@aged-1-repeat2" in flat
+    )
+    assert "ingress found in water-8@aged-1," not in flat
+    assert "Verdict: invalid, repeated as a new run (tank level drawn down" in flat
     # The leak gauge and insulation tester, whose U the verdicts use, are in the equipment.
     assert "PG-7781" in whole and "IR-3310" in whole
     summary = " ".join(
@@ -122,6 +132,10 @@ def test_demo_bench_work_records_its_runs_judges_them_and_checks_out(tmp_path: P
     try:
         with engine.connect() as conn:
             assert conn.execute(sa.text("SELECT count(*) FROM raw_file")).scalar() == 12
+            # Observations and deviations carry the bench times they were made at.
+            for table in ("observation", "deviation"):
+                first_made = conn.execute(sa.text(f"SELECT min(recorded_at) FROM {table}"))
+                assert str(first_made.scalar()).startswith("2027-01-"), table
             # The made-to-fail run: the lowest point above 2053.7 mm for four minutes.
             (number,) = conn.execute(
                 sa.text(

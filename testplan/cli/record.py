@@ -346,6 +346,10 @@ def deviation_command(
         str | None,
         typer.Option("--covers", help="The condition criterion whose failure it accepts."),
     ] = None,
+    at: Annotated[
+        str | None,
+        typer.Option("--at", help="When it was made, ISO 8601 with zone (default: now)."),
+    ] = None,
     campaign: CampaignOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
@@ -358,6 +362,7 @@ def deviation_command(
     from testplan.store import records
 
     approver = load_signer(approved_by, key, option="--approved-by")
+    when = parse_at(at)
     store = open_for_writing(db, quiet=quiet)
 
     def unit(session: Session) -> None:
@@ -370,6 +375,7 @@ def deviation_command(
             approver=approver,
             recorded_by=by,
             covers=covers,
+            at=when,
         )
 
     store.write(unit)
@@ -568,6 +574,10 @@ def observe_command(
     ] = None,
     photo: Annotated[Path | None, typer.Option("--photo", help="Photo file.")] = None,
     note: Annotated[str | None, typer.Option("--note", help="A free-text note.")] = None,
+    at: Annotated[
+        str | None,
+        typer.Option("--at", help="When it was made, ISO 8601 with zone (default: now)."),
+    ] = None,
     campaign: CampaignOption = None,
     db: DbOption = None,
     quiet: QuietOption = False,
@@ -662,11 +672,12 @@ def observe_command(
                 photo=content,
             )
         )
+    when = parse_at(at)
     store = open_for_writing(db, quiet=quiet)
 
     def unit(session: Session) -> int:
         row = records.find_run(session, run, campaign=campaign)
-        return len(records.add_observations(session, run=row, items=items, by=by))
+        return len(records.add_observations(session, run=row, items=items, by=by, at=when))
 
     n = store.write(unit)
     typer.echo(f"{run}: {n} observation(s) recorded")

@@ -197,6 +197,8 @@ def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
             "Data checked by",
             f"{r.checker.name} ({r.checker.initials}), {_date(run.checked_at)}"
             if r.checker
+            else "not checked: the run was declared invalid"
+            if run.state == "invalid"
             else "not yet checked",
         ),
         ("Lab ambient", ambient),
@@ -286,7 +288,12 @@ def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
         key=run.key,
         heading=f"{run.key}: {proc['code']} {proc['title']}",
         method=_method(proc),
-        outcome=OUTCOME_TEXT[outcome],
+        outcome=(
+            f"invalid, repeated as a new run ({run.invalid_reason}); the product is not "
+            "judged on it"
+            if run.state == "invalid"
+            else OUTCOME_TEXT[outcome]
+        ),
         facts=facts,
         checklist=checklist,
         deviations=deviations,

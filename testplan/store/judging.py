@@ -140,7 +140,8 @@ def _observations(session: Session, run: RunRecord) -> list[J.Obs]:
 
 
 def _later_ingress(session: Session, run: RunRecord) -> dict[str, list[tuple[str, bool]]]:
-    """Water runs after this one on the same specimens, and whether each found ingress."""
+    """Valid water runs after this one on the same specimens, and whether each found
+    ingress."""
     assert run.finished_at is not None
     out: dict[str, list[tuple[str, bool]]] = defaultdict(list)
     for spec in run_specimens(session, run):
@@ -151,6 +152,8 @@ def _later_ingress(session: Session, run: RunRecord) -> dict[str, list[tuple[str
                 RunSpecimen.specimen_id == spec.id,
                 col(RunRecord.procedure_key).startswith("water-"),
                 col(RunRecord.started_at) >= run.finished_at,
+                # A run declared invalid is not evidence about the product: its repeat is.
+                col(RunRecord.state).not_in(("invalid", "withdrawn")),
             )
             .order_by(col(RunRecord.started_at))
         ).all()
@@ -604,7 +607,8 @@ def _claims(plan: dict[str, Any]) -> list[tuple[str, list[str]]]:
         if p.get("family") == "salt_mist":
             out.append((f"salt mist, {p['standard']['name']}", [p["id"]]))
         elif p.get("family") == "endurance":
-            out.append((f"endurance: {p['title']}", [p["id"]]))
+            title = str(p["title"]).removeprefix("Cycle endurance: ")
+            out.append((f"endurance: {title}", [p["id"]]))
     return out
 
 
@@ -614,7 +618,7 @@ def rollup(session: Session, campaign: CampaignRecord) -> Rollup:
     fails that specimen only. An invalidated run gives way to its repeat."""
     out = Rollup()
     states: dict[uuid.UUID, list[str]] = defaultdict(list)
-    per_proc: dict[str, list[tuple[str, str]]] = defaultdict(list)
+    per_proc: dict[str, list[tuple[str, str, str]]] = defaultdict(list)
     runs = session.exec(
         select(RunRecord)
         .where(RunRecord.campaign_id == campaign.id, RunRecord.state != "withdrawn")
@@ -659,7 +663,7 @@ def rollup(session: Session, campaign: CampaignRecord) -> Rollup:
                 )
         for s in members:
             states[s.id].append(run_state[s.id])
-            per_proc[run.procedure_key].append((run.key, run_state[s.id]))
+            per_proc[run.procedure_key].append((run.key, run_state[s.id], s.serial))
         out.runs[run.key] = J.worst_status(list(run_state.values()))
     specimens = session.exec(
         select(SpecimenRecord)
@@ -685,15 +689,37 @@ def rollup(session: Session, campaign: CampaignRecord) -> Rollup:
     if revision is not None:
         for name, procs in _claims(json.loads(revision.plan_json)):
             pairs = [p for proc in procs for p in per_proc.get(proc, [])]
-            status = J.claim_status([st for _, st in pairs])
-            keys = sorted({k for k, _ in pairs})
-            reason = ""
-            if status == J.NOT_EVALUATED:
-                done = len({k for k, st in pairs if st == J.PASSED})
-                reason = (
-                    "no run planned for it"
-                    if not keys
-                    else f"{done} of {len(keys)} runs passed, the others not done or invalid"
-                )
-            out.claims.append(Claim(name, status, keys, reason))
+            status = J.claim_status([st for _, st, _ in pairs])
+            keys = sorted({k for k, _, _ in pairs})
+            out.claims.append(Claim(name, status, keys, _claim_reason(status, keys, pairs)))
     return out
+
+
+def _claim_reason(status: str, keys: list[str], pairs: list[tuple[str, str, str]]) -> str:
+    """Why a claim is not met (the specimens that failed, in which runs) or not evaluated
+    (how many of its runs passed, and what the others are)."""
+    if status == J.MET:
+        return ""
+    if status == J.NOT_MET:
+        failed: dict[str, list[str]] = defaultdict(list)
+        for key, st, serial in pairs:
+            if st == J.FAILED and key not in failed[serial]:
+                failed[serial].append(key)
+        return "failed: " + "; ".join(f"{s} in {', '.join(k)}" for s, k in sorted(failed.items()))
+    if not keys:
+        return "no run planned for it"
+    per_run: dict[str, set[str]] = defaultdict(set)
+    for key, st, _ in pairs:
+        per_run[key].add(st)
+    counts: dict[str, int] = defaultdict(int)
+    for states in per_run.values():
+        if states == {J.PASSED}:
+            counts["passed"] += 1
+        elif J.NOT_STARTED in states:
+            counts["not performed"] += 1
+        elif J.INVALID in states:
+            counts["invalid"] += 1
+        else:
+            counts["not complete"] += 1
+    parts = [f"{n} {what}" for what, n in counts.items() if what != "passed"]
+    return f"{counts.get('passed', 0)} of {len(keys)} runs passed; " + ", ".join(parts)

@@ -720,6 +720,7 @@ def add_deviation(
     approver: Signer,
     recorded_by: str,
     covers: str | None = None,
+    at: dt.datetime | None = None,
 ) -> Deviation:
     """A departure from the method, allowed only with a reason and the approval of an
     authorised approver signed with their own key; ``covers`` names the condition
@@ -739,6 +740,7 @@ def add_deviation(
                 fix=f"one of: {', '.join(known)}",
             )
     by = find_person(session, recorded_by)
+    recorded = _not_before_start(run, at, "deviation")
     row = Deviation(
         id=uuid.uuid4(),
         run_id=run.id,
@@ -746,7 +748,7 @@ def add_deviation(
         reason=reason,
         approved_by_id=find_person(session, approver.initials, key=approver.option).id,
         recorded_by_id=by.id,
-        recorded_at=utc_now(),
+        recorded_at=recorded,
         criterion_key=covers,
     )
     approved, key, signature = sign_act(
@@ -1001,13 +1003,34 @@ class ObservationIn:
     photo: bytes | None = None
 
 
+def _not_before_start(run: RunRecord, at: dt.datetime | None, what: str) -> dt.datetime:
+    """The time a record is made at: now, or the given time, which is not before its run
+    started."""
+    if at is None:
+        return utc_now()
+    when = at.astimezone(dt.UTC)
+    if run.started_at is not None and when < run.started_at.astimezone(dt.UTC):
+        raise RecordError(
+            f"{what} time {when:%Y-%m-%d %H:%M} UTC is before run {run.key} started "
+            f"({run.started_at.astimezone(dt.UTC):%Y-%m-%d %H:%M} UTC)",
+            key="--at",
+        )
+    return when
+
+
 def add_observations(
-    session: Session, *, run: RunRecord, items: Sequence[ObservationIn], by: str
+    session: Session,
+    *,
+    run: RunRecord,
+    items: Sequence[ObservationIn],
+    by: str,
+    at: dt.datetime | None = None,
 ) -> list[Observation]:
     _open(session, run.campaign_id)
     if not (run.state == "checked" and _amendment_open(session, run)):
         _state(run, ("running", "finished"), "record observations on")
     person = require_role(session, by, "operator")
+    recorded = _not_before_start(run, at, "observation")
     serials = {s.serial: s for s in run_specimens(session, run)}
     out = []
     for item in items:
@@ -1036,6 +1059,7 @@ def add_observations(
             data_json=audit.canonical(item.data),
             attachment_id=attachment_id,
             recorded_by_id=person.id,
+            recorded_at=recorded,
         )
         session.add(obs)
         session.flush()

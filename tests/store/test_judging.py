@@ -289,4 +289,22 @@ def test_claims_are_stated_one_by_one(bench: Bench) -> None:
     assert claims["IP6X"]["status"] == "not evaluated"
     assert claims["IPX8 at 2 m for 72 h"]["status"] == "not evaluated"
     assert RUN in claims["IPX8 at 2 m for 72 h"]["runs"]
-    assert claims["IPX8 at 2 m for 72 h"]["reason"].startswith("0 of 3 runs passed")
+    assert claims["IPX8 at 2 m for 72 h"]["reason"] == (
+        "0 of 3 runs passed; 1 invalid, 2 not performed"
+    )
+
+
+def test_a_claim_not_met_names_the_specimens_that_failed_and_where() -> None:
+    from testplan.domain import judge as J
+    from testplan.store.judging import _claim_reason
+
+    pairs = [
+        ("water-8@aged-1-repeat2", J.PASSED, "QC-2027-014-S03"),
+        ("water-8@aged-1-repeat2", J.FAILED, "QC-2027-014-S04"),
+        ("water-8@aged-2", J.PASSED, "QC-2027-014-S05"),
+    ]
+    keys = ["water-8@aged-1-repeat2", "water-8@aged-2"]
+    assert _claim_reason(J.NOT_MET, keys, pairs) == (
+        "failed: QC-2027-014-S04 in water-8@aged-1-repeat2"
+    )
+    assert _claim_reason(J.MET, keys, pairs[:1]) == ""

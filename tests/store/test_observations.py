@@ -205,3 +205,31 @@ def test_image_types_by_their_first_bytes() -> None:
     assert photo_type(b"\x00\x00\x00\x18ftypheic") == "image/heic"
     assert photo_type(b"%PDF-1.7") is None
     assert photo_type(b"\x00\x00\x00\x18ftypisom") is None  # an MP4 video
+
+
+def test_an_observation_or_deviation_is_dated_with_at_not_before_the_run_started(
+    bench: Bench,
+) -> None:
+    started(bench)
+    observe = ["record", "observe", RUN, "--specimen", "QC-2027-014-S01", "--ingress",
+               "water:none", "--by", "AK", "--quiet"]  # fmt: skip
+    early = bench.fail(*observe, "--at", "2027-01-12T16:00Z")
+    assert early == (
+        "error: --at: observation time 2027-01-12 16:00 UTC is before run "
+        f"{RUN} started (2027-01-12 16:05 UTC)"
+    ), early
+    assert bench.sql("SELECT count(*) FROM observation") == [(0,)]
+    bench(*observe, "--at", "2027-01-15T16:10Z")
+    assert [str(t)[:16] for (t,) in bench.sql("SELECT recorded_at FROM observation")] == [
+        "2027-01-15 16:10"
+    ]
+    deviation = ["record", "deviation", RUN, "--description", "tank topped up for 3 min",
+                 "--reason", "slow leak at the tank valve", "--approved-by", "MO",
+                 "--key", bench.key("MO"), "--by", "AK", "--quiet"]  # fmt: skip
+    early = bench.fail(*deviation, "--at", "2027-01-12T15:00Z")
+    assert "deviation time 2027-01-12 15:00 UTC is before run" in early, early
+    assert bench.sql("SELECT count(*) FROM deviation") == [(0,)]
+    bench(*deviation, "--at", "2027-01-13T10:00Z")
+    assert [str(t)[:16] for (t,) in bench.sql("SELECT recorded_at FROM deviation")] == [
+        "2027-01-13 10:00"
+    ]
