@@ -226,7 +226,7 @@ def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
         equipment.append(
             Row(
                 [
-                    f"{e.tag}: {e.description}" + (f" (s/n {e.serial})" if e.serial else ""),
+                    f"{e.tag}: {e.description}" + (f" (serial {e.serial})" if e.serial else ""),
                     c.channel,
                     f"{c.certificate}, {c.provider}",
                     f"{c.calibrated_on} to {c.due_on}: "

@@ -11,6 +11,7 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any
 
 from testplan.domain import judge as J
+from testplan.report.typography import si_text
 
 if TYPE_CHECKING:  # pragma: no cover
     import numpy as np
@@ -97,7 +98,9 @@ def _limits(ax: Any, c: J.Criterion, label: bool = True) -> None:
     for value in (lo, hi):
         if value is not None:
             ax.axhline(
-                value, **LIMIT_STYLE, label=f"limit {J.fmt(value, c.unit)}" if label else None
+                value,
+                **LIMIT_STYLE,
+                label=si_text(f"limit {J.fmt(value, c.unit)}") if label else None,
             )
 
 
@@ -125,7 +128,6 @@ def _time_label(run: J.RunData) -> str:
 
 def quantity_label(quantity: str, unit: str | None) -> str:
     """An axis label: the quantity's name in words, with its unit in SI typography."""
-    from testplan.report.typography import si_text
 
     words = quantity.replace("_", " ")
     return si_text(f"{words} ({unit})") if unit else words

@@ -18,6 +18,14 @@ SI_UNITS = (
     (r"(?<=\d)(?=[a-zA-Z]+\^[23]\b)", " "),
     (r"(?<=[a-zA-Z])\^2\b", "²"),
     (r"(?<=[a-zA-Z])\^3\b", "³"),
+    # a product of units ("mbar*L/s"), an angle in degrees, comparison and multiplication
+    # signs and arrows written the ASCII way
+    (r"(?<=[a-zA-Z])\*(?=[a-zA-Z])", "·"),
+    (r"(?<=\d) deg\b", "°"),
+    (r" >= ", " ≥ "),
+    (r" <= ", " ≤ "),
+    (r" -> ", " → "),
+    (r"(?<=\b[\dr]) x (?=U\b)", " × "),
 )
 
 

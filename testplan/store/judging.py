@@ -703,9 +703,13 @@ def _claim_reason(status: str, keys: list[str], pairs: list[tuple[str, str, str]
     if status == J.NOT_MET:
         failed: dict[str, list[str]] = defaultdict(list)
         for key, st, serial in pairs:
-            if st == J.FAILED and key not in failed[serial]:
-                failed[serial].append(key)
-        return "failed: " + "; ".join(f"{s} in {', '.join(k)}" for s, k in sorted(failed.items()))
+            if st == J.FAILED and serial not in failed[key]:
+                failed[key].append(serial)
+        if len(keys) == 1:
+            return "failed: " + ", ".join(sorted(failed[keys[0]]))
+        return "failed: " + "; ".join(
+            f"{', '.join(sorted(serials))} in {key}" for key, serials in sorted(failed.items())
+        )
     if not keys:
         return "no run planned for it"
     per_run: dict[str, set[str]] = defaultdict(set)

@@ -61,7 +61,7 @@ def text(report: tuple[Path, list[str], PdfReader]) -> str:
         "VC-LT-03, Gellimoor Calibration Ltd",  # equipment and certificate
         "valid for the run",  # calibration status
         "4 mm (k = 2)",  # uncertainty
-        "guarded acceptance, w = 1 x U (ILAC-G8); agreed: client letter QG-QA-0112",  # rule
+        "guarded acceptance, w = 1 × U (ILAC-G8); agreed: client letter QG-QA-0112",  # rule
         "supplied by the client",  # customer-supplied data identified (cl. 7.8.2.2)
         "The laboratory is not responsible for it",  # its disclaimer
         # cl. 7.8.7: S03 failed where the plan allows none, so the reliability claim is withheld

@@ -20,8 +20,13 @@ from testplan.report.typography import si_text
         ("1.38 ml/80cm^2/h", "1.38 ml/80 cm²/h"),
         ("2 m^2", "2 m²"),
         ("cm^2 per m^2", "cm² per m²"),
+        ("-3.9e-05 mbar*L/s", "-3.9e-05 mbar·L/s"),
+        ("travel 120.0 deg", "travel 120.0°"),
+        ("R >= 0.9, t <= 2 h, 1200 -> 1199.8", "R ≥ 0.9, t ≤ 2 h, 1200 → 1199.8"),
+        ("w = r x U, w = 1 x U", "w = r × U, w = 1 × U"),
         # Not units: left alone.
         ("degCelsius, 2^3 and x^2y", "degCelsius, 2^3 and x^2y"),
+        ("a degree, 5 * 3, 2x U, box Unit", "a degree, 5 * 3, 2x U, box Unit"),
     ],
 )
 def test_units_are_written_the_si_way(ascii_text: str, printed: str) -> None:

@@ -118,7 +118,7 @@ def test_an_edited_superseded_manifest_gives_no_list_but_says_so(approved: Bench
         with pytest.raises(sa.exc.DBAPIError, match="manifest records are append-only"):
             approved.raw("UPDATE manifest SET body_json = :b", b=forged)
         return
-    approved.raw("UPDATE manifest SET body_json = :b", b=forged)
+    approved.tamper("UPDATE manifest SET body_json = :b", b=forged)
     assert changes(approved) == (
         "function check of S01 added",
         [
