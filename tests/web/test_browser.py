@@ -3,6 +3,7 @@ would do it at a tablet, then the store compared with a CLI-recorded twin."""
 
 from __future__ import annotations
 
+import datetime as dt
 import shutil
 import socket
 import threading
@@ -181,6 +182,11 @@ def test_sign_off_in_a_browser(
     from playwright.sync_api import sync_playwright
 
     record_and_judge(bench)
+    # The page signs at the time it is used; this campaign's data checks are dated 2027, so
+    # the page is used after them.
+    monkeypatch.setattr(
+        "testplan.store.signoff.utc_now", lambda: dt.datetime(2027, 1, 20, 9, 0, tzinfo=dt.UTC)
+    )
     result = bench.runner.invoke(
         cli_app,
         ["people", "password", "RP", *bench.signed(MANAGER), "--db", bench.url, "--quiet"],
