@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -66,6 +67,7 @@ def environment(override: str | Path | None = None) -> jinja2.Environment:
         lstrip_blocks=True,
     )
     env.filters["unbroken"] = unbroken
+    env.filters["status_class"] = status_class
     env.filters["cite"] = cite
     env.filters["shown_provenance"] = shown_provenance
     return env
@@ -107,3 +109,10 @@ def keep_whole(words: list[str]) -> Callable[[Any], markupsafe.Markup]:
 def render(name: str, context: dict[str, Any], override: str | Path | None = None) -> str:
     """Render template ``name`` with ``context``; returns the HTML text."""
     return environment(override).get_template(name).render(**context)
+
+
+def status_class(text: object) -> str:
+    """The CSS class of a verdict or status text: its words before any comma or bracket
+    ("invalid, repeated as ..." is ``invalid``; "conditional pass" ``conditional-pass``)."""
+    head = re.split(r",| \(", str(text), maxsplit=1)[0]
+    return head.replace(":", "").strip().replace(" ", "-")

@@ -343,24 +343,16 @@ class BenchApp:
 
     async def deviation(self, request: Request, me: BenchSession) -> Response:
         """A deviation, approved on the spot: the approver signs with their own key file."""
-        from testplan.keys import load_private_bytes
         from testplan.store import records
         from testplan.store.identity import Signer
 
         key = request.path_params["key"]
         form = request.state.form
         approver = _text(form, "approver").strip()
-        upload = form.get("approver_key")
-        if not isinstance(upload, UploadFile) or not upload.filename:
-            return await self.run_page(
-                request, me, {"approver_key": "the approver's key file"}, 400
-            )
         try:
-            private = load_private_bytes(
-                await upload.read(64 * 1024), _text(form, "approver_passphrase"), Path("key file")
-            )
+            private = await _private_key(form, "approver_key", "approver_passphrase")
         except TestplanError as err:
-            return await self.run_page(request, me, {"approver_key": _message(err)}, 400)
+            return await self.run_page(request, me, {"approver_key": err.message}, 400)
 
         def unit(session: Session) -> None:
             run = records.find_run(session, key)

@@ -31,3 +31,20 @@ from testplan.report.typography import si_text
 )
 def test_units_are_written_the_si_way(ascii_text: str, printed: str) -> None:
     assert si_text(ascii_text) == printed
+
+
+@pytest.mark.parametrize(
+    ("status", "css"),
+    [
+        ("conditional pass", "conditional-pass"),
+        ("invalid: repeat", "invalid-repeat"),
+        ("invalid, repeated as water-8@aged-1-repeat2", "invalid"),
+        ("invalid, repeated as a new run (tank drawn down); the product is not judged", "invalid"),
+        ("logged, no band", "logged"),
+        ("not met", "not-met"),
+    ],
+)
+def test_a_status_gives_its_css_class(status: str, css: str) -> None:
+    from testplan.report.render import status_class
+
+    assert status_class(status) == css

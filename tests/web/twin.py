@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import re
 
-from tests.store.conftest import Bench
+from tests.store.conftest import START, Bench
 from tests.web.conftest import DATA, RUN
 
 INGRESS = {"where": "behind the cable gland"}
@@ -22,23 +22,7 @@ def record_twin(twin: Bench) -> None:
     photo.write_bytes((DATA / "photos" / "gland-after-immersion.png").read_bytes())
     logger = twin.folder / "tank-long.csv"
     logger.write_bytes((DATA / "loggers" / "tank-long.csv").read_bytes())
-    twin(
-        "record",
-        "start",
-        RUN,
-        "--operator",
-        "AK",
-        "--equipment",
-        "LT-03",
-        "--ambient-temperature",
-        "21 degC",
-        "--ambient-humidity",
-        "45 %",
-        "--ambient-pressure",
-        "1012 hPa",
-        "--state-ok",
-        "--quiet",
-    )
+    twin("record", "start", RUN, *START, "--quiet")
     twin(
         "record",
         "import",
