@@ -18,6 +18,7 @@ from typing import TYPE_CHECKING, Any
 from testplan import __version__
 from testplan.domain import judge as J
 from testplan.domain.plan import cite
+from testplan.report.names import criterion_words
 from testplan.report.typography import si_text
 
 if TYPE_CHECKING:  # pragma: no cover
@@ -246,7 +247,7 @@ def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
         verdicts.append(
             Row(
                 [
-                    v.criterion_key.split(".", 1)[-1],
+                    criterion_words(v.criterion_key, v.quantity),
                     serial or "all",
                     J.fmt(v.measured, v.unit),
                     J.shown_limits(v.limit_min, v.limit_max, v.unit),
@@ -286,7 +287,7 @@ def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
         notes.append("Still running: no results yet.")
     return RunSection(
         key=run.key,
-        heading=f"{run.key}: {proc['code']} {proc['title']}",
+        heading=f"{run.key}: {proc['title']}",
         method=_method(proc),
         outcome=(
             f"invalid, repeated as a new run ({run.invalid_reason}); the product is not "
@@ -349,6 +350,8 @@ def _deviation_lines(data: ReportData) -> list[str]:
             out.append(f"{r.run.key}: invalid, {r.run.invalid_reason}")
     return out
 
+
+NO_EDITION = "no edition: the laboratory's own method, with the statistics the plan states"
 
 # Fields that hold markup or data, never prose.
 NOT_TEXT = frozenset({"svg", "data_uri", "calendar_svg", "as_run_svg", "sha256", "keep_whole"})
@@ -494,7 +497,9 @@ def build(
                 outcome=o,
             )
         )
-    standards = sorted({(p["standard"]["name"], p["standard"]["edition"] or "-") for p in used})
+    standards = sorted(
+        {(p["standard"]["name"], p["standard"]["edition"] or NO_EDITION) for p in used}
+    )
     customer = []
     for p in used:
         for name, d in p["parameters"].items():

@@ -56,7 +56,6 @@ NAMES: dict[str, str] = {
     "fog_collection": "fog collection",
     "solution_ph": "solution pH",
     "cabinet_temperature": "cabinet temperature",
-    "humid_rh": "relative humidity, humid phase",
     "storage_temperature": "storage temperature",
     "storage_rh": "storage relative humidity",
     "cycle_count": "cycle count",

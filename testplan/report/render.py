@@ -12,6 +12,7 @@ import markupsafe
 
 from testplan.domain.plan import cite, shown_provenance
 from testplan.errors import TestplanError
+from testplan.report.names import criterion_words, words
 
 
 def template_dir(override: str | Path | None = None) -> Path:
@@ -70,6 +71,9 @@ def environment(override: str | Path | None = None) -> jinja2.Environment:
     env.filters["status_class"] = status_class
     env.filters["cite"] = cite
     env.filters["shown_provenance"] = shown_provenance
+    env.filters["words"] = words
+    env.filters["criterion_words"] = criterion_words
+    env.filters["digest"] = digest
     return env
 
 
@@ -116,3 +120,14 @@ def status_class(text: object) -> str:
     ("invalid, repeated as ..." is ``invalid``; "conditional pass" ``conditional-pass``)."""
     head = re.split(r",| \(", str(text), maxsplit=1)[0]
     return head.replace(":", "").strip().replace(" ", "-")
+
+
+_HEX = re.compile(r"[0-9a-fA-F]{16,}")
+
+
+def digest(text: object, group: int = 8) -> str:
+    """A text with each long hex digest in groups of ``group`` characters split by spaces,
+    so a line breaks only between groups (the stored digest has no spaces)."""
+    return _HEX.sub(
+        lambda m: " ".join(m[0][i : i + group] for i in range(0, len(m[0]), group)), str(text)
+    )
