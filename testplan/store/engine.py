@@ -34,7 +34,7 @@ T = TypeVar("T")
 ENV_VAR = "TESTPLAN_DB"
 # The newest migration in db/versions; tests/store/test_open_and_migrate.py checks it, so a
 # store already at it opens without loading the migration machinery.
-HEAD = "0017"
+HEAD = "0018"
 DEFAULT_FILE = "testplan.db"
 BUSY_TIMEOUT_MS = 10_000
 RETRY_DELAYS_S = (0.2, 0.5, 1.0, 2.0, 4.0)

@@ -131,14 +131,36 @@ def test_every_table_has_its_lock(bench: Bench) -> None:
     tables = set(SQLModel.metadata.tables) - NOT_LOCKED
     if bench.url.startswith("sqlite"):
         rows = bench.sql("SELECT tbl_name, name FROM sqlite_master WHERE type = 'trigger'")
-        wanted = ("_locked_update", "_locked_delete", "_no_update", "_no_delete")
+        wanted = ("_locked_update", "_locked_delete", "_no_update", "_no_delete", "_locked_insert")
     else:
         rows = bench.sql(
             "SELECT c.relname, t.tgname FROM pg_trigger t JOIN pg_class c ON c.oid = t.tgrelid "
             "WHERE NOT t.tgisinternal AND t.tgenabled <> 'D'"
         )
-        wanted = ("_locked", "_append_only")
+        wanted = ("_locked", "_append_only", "_locked_insert")
         truncate = {t for t, name in rows if name == f"{t}_no_truncate"}
         assert truncate >= set(SQLModel.metadata.tables), sorted(tables - truncate)
     guarded = {t for t, name in rows if any(name == t + w for w in wanted)}
     assert guarded == tables, (sorted(tables - guarded), sorted(guarded - tables))
+
+
+# one new row of each table whose rows belong to the approved campaign (migration 0018)
+INSERTS = {
+    "observation": "INSERT INTO observation SELECT * FROM observation LIMIT 1",
+    "deviation": "INSERT INTO deviation SELECT * FROM deviation LIMIT 1",
+    "judgement": "INSERT INTO judgement SELECT * FROM judgement LIMIT 1",
+    "verdict": "INSERT INTO verdict SELECT * FROM verdict LIMIT 1",
+    "run_specimen": "INSERT INTO run_specimen SELECT * FROM run_specimen LIMIT 1",
+    "specimen": "INSERT INTO specimen SELECT * FROM specimen LIMIT 1",
+}
+
+
+@pytest.mark.parametrize("table", sorted(INSERTS))
+def test_a_new_row_cannot_join_an_approved_campaign(approved: Bench, table: str) -> None:
+    """A made-up row added to an approved campaign is refused by the database, before any
+    key or uniqueness check could be the reason."""
+    if not approved.sql(f"SELECT 1 FROM {table} LIMIT 1"):
+        pytest.skip(f"the approved campaign has no {table} row to copy")
+    assert "would join an approved campaign, which is locked" in refused(
+        approved, INSERTS[table]
+    )
