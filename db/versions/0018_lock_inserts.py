@@ -15,7 +15,6 @@ belongs to no locked campaign until a campaign row names it, and that row is ref
 
 from __future__ import annotations
 
-
 from alembic import op
 
 revision = "0018"

@@ -224,9 +224,9 @@ def test_instruments_whose_reading_enters_a_verdict_are_listed(report) -> None: 
     # The leak gauge and the insulation tester are named only in the observations; their
     # calibration and U are what the leak and insulation verdicts use.
     body = text(report)
-    assert "PG-01: test_pressure sensor test_pressure VC-PG-01, Gellimoor Calibration Ltd" in body
+    assert "PG-01: test_pressure sensor leak-test pressure VC-PG-01, Gellimoor" in body
     assert "0.05 mbar (k = 2) 800 to 1600 mbar" in body
-    assert "IR-04: insulation_resistance sensor insulation_resistance VC-IR-04" in body
+    assert "IR-04: insulation_resistance sensor insulation resistance VC-IR-04" in body
     assert "20 MΩ (k = 2) 1 to 10000 MΩ" in body
 
 

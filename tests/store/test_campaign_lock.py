@@ -161,6 +161,4 @@ def test_a_new_row_cannot_join_an_approved_campaign(approved: Bench, table: str)
     key or uniqueness check could be the reason."""
     if not approved.sql(f"SELECT 1 FROM {table} LIMIT 1"):
         pytest.skip(f"the approved campaign has no {table} row to copy")
-    assert "would join an approved campaign, which is locked" in refused(
-        approved, INSERTS[table]
-    )
+    assert "would join an approved campaign, which is locked" in refused(approved, INSERTS[table])
