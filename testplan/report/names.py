@@ -136,7 +136,7 @@ def words(key: object) -> str:
     if text in NAMES:
         return NAMES[text]
     if text.startswith("logged_"):
-        return f"{words(text[len('logged_'):])} (logged, no band)"
+        return f"{words(text[len('logged_') :])} (logged, no band)"
     m = _CYCLE_N.match(text)
     if m:
         return f"{words(m['head'])} at cycle {m['n']}"
