@@ -123,7 +123,19 @@ def clone_row(b: Bench, table: str, where: str, **changes: Any) -> uuid.UUID | N
             if "id" in row:
                 new_id = row["id"] = uuid.uuid4()
             row.update(changes)
+            # on SQLite as someone holding the file: the lock triggers dropped and put back
+            triggers = (
+                conn.exec_driver_sql(
+                    "SELECT name, sql FROM sqlite_master WHERE type = 'trigger'"
+                ).all()
+                if b.url.startswith("sqlite")
+                else []
+            )
+            for name, _ in triggers:
+                conn.exec_driver_sql(f'DROP TRIGGER "{name}"')
             conn.execute(t.insert().values(**row))
+            for _, text in triggers:
+                conn.exec_driver_sql(text)
             return new_id
     finally:
         engine.dispose()
