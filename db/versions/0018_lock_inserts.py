@@ -8,9 +8,12 @@ Create Date: 2026-12-02
 observation, judgement, verdict, deviation, run or sample block added after approval) was
 only found afterwards by `verify`. Every table whose rows belong to one campaign through
 their own keys now refuses an INSERT into a campaign whose latest manifest is approved and
-not superseded by an amendment, on both engines. Registers shared between campaigns
-(equipment, calibration, attachment, person) take new rows as before: a new row there
-belongs to no locked campaign until a campaign row names it, and that row is refused.
+not superseded by an amendment, on both engines. Sample blocks are left out: a copy
+between stores offers every block again and lets the engine skip those it holds, which a
+row trigger would refuse; an added block is named by `store check` and `verify`.
+Registers shared between campaigns (equipment, calibration, attachment, person) take
+new rows as before: a new row there belongs to no locked campaign until a campaign row
+names it, and that row is refused.
 """
 
 from __future__ import annotations
@@ -45,7 +48,6 @@ CAMPAIGNS = {
     "observation": VIA_RUN,
     "judgement": VIA_RUN,
     "logger_channel": VIA_RAW,
-    "sample_block": VIA_RAW,
     "verdict": (
         "SELECT u.campaign_id FROM judgement j JOIN run u ON u.id = j.run_id "
         "WHERE j.id = NEW.judgement_id"

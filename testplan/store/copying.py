@@ -35,6 +35,9 @@ class Copied:
     audit_entries: int = 0
 
 
+SIGN_OFF = ("manifest", "signature", "amendment", "report_issue")
+
+
 def _label(table: sa.Table, row: Mapping[str, Any]) -> str:
     for name in ("key", "reference", "serial", "initials", "tag", "name"):
         if name in row and row[name] is not None:
@@ -67,6 +70,9 @@ def copy_store(
     tables = [
         t for t in SQLModel.metadata.sorted_tables if t.name not in ("store_meta", "sample_block")
     ]
+    # The sign-off records go last: an approval locks its campaign against new rows
+    # (migration 0018), so the campaign's own rows must be in the target before it.
+    tables.sort(key=lambda t: t.name in SIGN_OFF)
     try:
         _copy_rows(source, target, tables, done, progress)
     except sa.exc.DBAPIError as err:

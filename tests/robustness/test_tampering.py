@@ -82,7 +82,7 @@ CHUNK = "samples of tank.csv, chunk 1 (rows 1 to 4400)"
 CASES = [
     Tamper("sample", "change", sql("UPDATE sample_block SET value = t_us"), CHUNK, True),
     Tamper("sample", "delete", sql("DELETE FROM sample_block"), CHUNK, True),
-    Tamper("sample", "insert", extra_block, CHUNK, True),
+    Tamper("sample", "insert", extra_block, CHUNK, False),
     Tamper(
         "raw file",
         "change",
@@ -237,7 +237,7 @@ def test_store_check_names_changed_logged_data(
     """`store check` needs no signature: it re-hashes the logged data against the hashes
     taken at import."""
     b = signed.bench
-    if b.url.startswith("postgresql"):
+    if b.url.startswith("postgresql") and act is not extra_block:
         pytest.skip("PostgreSQL refuses the change (see above)")
     act(b)
     result = b("store", "check", ok=False)
