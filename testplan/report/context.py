@@ -11,6 +11,7 @@ from __future__ import annotations
 import base64
 import datetime as dt
 import json
+import re
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any
@@ -172,6 +173,16 @@ def _method(proc: dict[str, Any]) -> str:
     return name + (f", {cite(proc['clause'])}" if proc["clause"] else "")
 
 
+def _heading(key: str, proc: dict[str, Any]) -> str:
+    """A run section's heading: the run, the procedure's title and, in brackets, its code
+    (IPX6, 20000 cycles) unless the title already says part of it (the salt-mist method's
+    "Kb method 2"); the standard itself is on the method line."""
+    title, code = proc["title"], proc["code"] or ""
+    said = {w.lower() for w in re.findall(r"\w+", title)}
+    shown = code and not said & {w.lower() for w in re.findall(r"\w+", code)}
+    return f"{key}: {title}" + (f" ({code})" if shown else "")
+
+
 def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
     from testplan.report.evidence import observation_rows
     from testplan.report.plots import run_figures
@@ -287,7 +298,7 @@ def _run_section(r: RunRecordData, figure_no: int, photo_no: int) -> RunSection:
         notes.append("Still running: no results yet.")
     return RunSection(
         key=run.key,
-        heading=f"{run.key}: {proc['title']}",
+        heading=_heading(run.key, proc),
         method=_method(proc),
         outcome=(
             f"invalid, repeated as a new run ({run.invalid_reason}); the product is not "

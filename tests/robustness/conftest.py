@@ -115,30 +115,14 @@ def clone_row(b: Bench, table: str, where: str, **changes: Any) -> uuid.UUID | N
     import testplan.store.tables  # noqa: F401
 
     t = SQLModel.metadata.tables[table]
-    engine = sa.create_engine(b.url)
-    try:
-        with engine.begin() as conn:
-            row = dict(conn.execute(sa.select(t).where(sa.text(where)).limit(1)).mappings().one())
-            new_id = None
-            if "id" in row:
-                new_id = row["id"] = uuid.uuid4()
-            row.update(changes)
-            # on SQLite as someone holding the file: the lock triggers dropped and put back
-            triggers = (
-                conn.exec_driver_sql(
-                    "SELECT name, sql FROM sqlite_master WHERE type = 'trigger'"
-                ).all()
-                if b.url.startswith("sqlite")
-                else []
-            )
-            for name, _ in triggers:
-                conn.exec_driver_sql(f'DROP TRIGGER "{name}"')
-            conn.execute(t.insert().values(**row))
-            for _, text in triggers:
-                conn.exec_driver_sql(text)
-            return new_id
-    finally:
-        engine.dispose()
+    with b.file_holder() as conn:
+        row = dict(conn.execute(sa.select(t).where(sa.text(where)).limit(1)).mappings().one())
+        new_id = None
+        if "id" in row:
+            new_id = row["id"] = uuid.uuid4()
+        row.update(changes)
+        conn.execute(t.insert().values(**row))
+        return new_id
 
 
 def as_param(b: Bench, value: uuid.UUID) -> str:

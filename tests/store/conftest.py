@@ -3,6 +3,7 @@ given in TESTPLAN_TEST_PG_URL (.ci/run starts one), on a fresh PostgreSQL databa
 
 from __future__ import annotations
 
+import contextlib
 import datetime as dt
 import os
 import uuid
@@ -167,18 +168,26 @@ class Bench:
         """Change the store as someone holding the SQLite file would: drop the lock
         triggers, make the change, put the triggers back. On PostgreSQL a plain ``raw``
         (the database user cannot drop the triggers it does not own)."""
-        if not self.url.startswith("sqlite"):
-            self.raw(statement, **params)
-            return
+        with self.file_holder() as conn:
+            conn.execute(sa.text(statement), params)
+
+    @contextlib.contextmanager
+    def file_holder(self) -> Iterator[sa.Connection]:
+        """A plain connection in one transaction; on SQLite with the lock triggers dropped
+        for its length and put back at its end, as someone holding the file can."""
         engine = sa.create_engine(self.url)
         try:
             with engine.begin() as conn:
-                triggers = conn.exec_driver_sql(
-                    "SELECT name, sql FROM sqlite_master WHERE type = 'trigger'"
-                ).all()
+                triggers = (
+                    conn.exec_driver_sql(
+                        "SELECT name, sql FROM sqlite_master WHERE type = 'trigger'"
+                    ).all()
+                    if self.url.startswith("sqlite")
+                    else []
+                )
                 for name, _ in triggers:
                     conn.exec_driver_sql(f'DROP TRIGGER "{name}"')
-                conn.execute(sa.text(statement), params)
+                yield conn
                 for _, text in triggers:
                     conn.exec_driver_sql(text)
         finally:
